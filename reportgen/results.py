@@ -1,0 +1,179 @@
+"""The run's results and their JSON form, the single source of truth for every output.
+
+``results.json`` is written first; the HTML, the PDF and the audit commands read it and nothing
+else. Its form is versioned (``SCHEMA_VERSION``), its keys come in a fixed order and its floats
+follow one formatting policy (12 significant digits), so the same inputs give the same bytes.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+from typing import Any
+
+from reportgen.stats.types import OrderVerdict, RegressionAssessment
+
+SCHEMA_VERSION = "1.0"
+#: Significant digits kept for every float written to results.json.
+FLOAT_DIGITS = 12
+
+CAUTIONS: tuple[str, ...] = (
+    "These diagnostics inform professional judgement; they do not replace it.",
+    "Every result depends on the sample, the transforms and the specification chosen in the "
+    "manifest; a different window or deterministic specification can change an order or a verdict.",
+    "Unit-root and stationarity tests have low power in short samples and near the unit root: "
+    "a failure to reject is not evidence that the null hypothesis is true.",
+    "The R-squared above Durbin-Watson sign (Granger and Newbold 1974) is a weak flag in short "
+    "samples; it is shown as a prompt to look further, not as a test.",
+)
+
+
+@dataclass(frozen=True, slots=True)
+class InputRecord:
+    """One input file: what it is, where it was read, and the SHA-256 of its bytes."""
+
+    role: str  # "manifest" or "data"
+    name: str  # dataset name, or "manifest"
+    path: str  # as resolved at run time (absolute)
+    relative_path: str  # relative to the manifest's folder, as written in the manifest
+    sha256: str
+    bytes: int
+
+
+@dataclass(frozen=True, slots=True)
+class DatasetRecord:
+    """A loaded dataset: its frequency, its period range and its size."""
+
+    name: str
+    path: str
+    index_column: str
+    frequency: str
+    frequency_source: str  # "declared" or "inferred"
+    rows: int
+    start: str
+    end: str
+    columns: tuple[str, ...]
+    table_sha256: str  # SHA-256 of the parsed table in a canonical form
+    notes: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class SeriesRecord:
+    """A series as analysed: where it came from, its values, and its order verdict."""
+
+    name: str
+    label: str
+    dataset: str
+    column: str
+    transforms: tuple[str, ...]
+    lineage: str  # e.g. "log(containers)"
+    frequency: str
+    start: str
+    end: str
+    dates: tuple[str, ...]
+    values: tuple[float, ...]
+    verdict: OrderVerdict
+    notes: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Results:
+    """Everything one run produced, before any rendering."""
+
+    tool_version: str
+    run_id: str
+    created: str
+    project: Mapping[str, str]
+    settings: Mapping[str, Any]
+    inputs: tuple[InputRecord, ...]
+    environment: Mapping[str, Any]
+    datasets: Mapping[str, DatasetRecord]
+    series: Mapping[str, SeriesRecord]
+    regressions: Mapping[str, RegressionAssessment]
+    regression_labels: Mapping[str, str]
+    methods: Mapping[str, Any]
+    cautions: tuple[str, ...] = CAUTIONS
+
+
+def _plain(value: Any) -> Any:
+    """Turn dataclasses, tuples and mappings into JSON values; floats follow the policy."""
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return {f.name: _plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
+    if isinstance(value, Mapping):
+        return {str(key): _plain(item) for key, item in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(item) for item in value]
+    if isinstance(value, bool) or value is None or isinstance(value, (str, int)):
+        return value
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            return None
+        return float(format(value, f".{FLOAT_DIGITS}g"))
+    if hasattr(value, "item"):  # numpy scalars
+        return _plain(value.item())
+    raise TypeError(f"cannot write {type(value).__name__} to results.json")
+
+
+def summary_counts(regressions: Mapping[str, RegressionAssessment]) -> dict[str, int]:
+    """How many regressions got each verdict, and how many are flagged."""
+    counts = dict.fromkeys(("stationary", "cointegrated", "spurious-risk", "unbalanced", "inconclusive"), 0)
+    for assessment in regressions.values():
+        counts[assessment.verdict] += 1
+    counts["flagged"] = sum(1 for assessment in regressions.values() if assessment.flagged)
+    return counts
+
+
+def results_to_dict(results: Results) -> dict[str, Any]:
+    """The JSON form of a run (see DESIGN.md, "Contracts"), keys in a fixed order."""
+    series: dict[str, Any] = {}
+    for name, record in results.series.items():
+        verdict = _plain(record.verdict)
+        series[name] = {
+            "label": record.label,
+            "dataset": record.dataset,
+            "column": record.column,
+            "transforms": list(record.transforms),
+            "lineage": record.lineage,
+            "frequency": record.frequency,
+            "start": record.start,
+            "end": record.end,
+            "nobs": len(record.values),
+            "order": verdict["order"],
+            "reason": verdict["reason"],
+            "deterministic": verdict["deterministic"],
+            "deterministic_reasons": verdict["deterministic_reasons"],
+            "trail": verdict["trail"],
+            "tests": verdict["tests"],
+            "notes": list(record.notes) + verdict["notes"],
+            "data": {"dates": list(record.dates), "values": _plain(record.values)},
+        }
+    regressions: dict[str, Any] = {}
+    for name, assessment in results.regressions.items():
+        body = _plain(assessment)
+        body.pop("name")
+        body["label"] = results.regression_labels.get(name, name)
+        regressions[name] = body
+    return {
+        "schema_version": SCHEMA_VERSION,
+        "tool_version": results.tool_version,
+        "run_id": results.run_id,
+        "created": results.created,
+        "project": _plain(results.project),
+        "settings": _plain(results.settings),
+        "inputs": _plain(results.inputs),
+        "environment": _plain(results.environment),
+        "datasets": _plain(results.datasets),
+        "series": series,
+        "regressions": regressions,
+        "summary": summary_counts(results.regressions),
+        "methods": _plain(results.methods),
+        "cautions": list(results.cautions),
+    }
+
+
+def dumps(document: Mapping[str, Any]) -> str:
+    """Serialise a results document: fixed indentation, key order as built, UTF-8 text."""
+    return json.dumps(document, indent=2, ensure_ascii=False, allow_nan=False) + "\n"

@@ -1,0 +1,265 @@
+"""The pipeline: manifest → datasets → series → orders → regressions → results → dossier.
+
+``run`` calls each stage in order and writes the outputs atomically: everything goes into a
+temporary folder beside the output folder and is moved into place only when complete, so a
+failed run never leaves a half-written dossier and never destroys the previous one.
+"""
+
+from __future__ import annotations
+
+import os
+import shutil
+import sys
+import tempfile
+import warnings
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+
+from reportgen import __version__
+from reportgen.errors import DataError, InsufficientDataError, Location, OutputError
+from reportgen.manifest import Manifest, load_manifest
+from reportgen.periods import index_labels, period_label
+from reportgen.provenance import build_time, environment, run_id, sha256_bytes
+from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dumps, results_to_dict
+from reportgen.sources import Table, canonical_table_hash, parse_period, read_table
+from reportgen.stats.methods import methods_text
+from reportgen.stats.order import integration_order
+from reportgen.stats.regression import assess_regression
+from reportgen.stats.types import RegressionAssessment, StatsSettings
+from reportgen.transforms import apply_transforms, lineage_of
+
+#: Output formats besides results.json, which is always written.
+FORMATS = ("html", "pdf")
+#: The file that marks a folder as a reportgen dossier.
+RESULTS_FILE = "results.json"
+
+Progress = Callable[[str], None]
+
+
+@dataclass(frozen=True, slots=True)
+class RunOutcome:
+    """What a run produced and where."""
+
+    out_dir: Path
+    files: tuple[Path, ...]
+    document: Mapping[str, Any]
+
+
+def _quiet(_: str) -> None:
+    return None
+
+
+def load_tables(manifest: Manifest) -> dict[str, Table]:
+    """Read every dataset the manifest declares (in manifest order)."""
+    tables: dict[str, Table] = {}
+    for name, spec in manifest.spec.datasets.items():
+        path = (manifest.base_dir / spec.path).resolve()
+        tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
+                                  manifest.locate("datasets", name, "path"),
+                                  manifest.locate("datasets", name, "index"))
+    return tables
+
+
+def build_series(manifest: Manifest, tables: Mapping[str, Table]) -> dict[str, tuple[pd.Series, str, tuple[str, ...]]]:
+    """Each declared series as analysed: its values, lineage and notes."""
+    built: dict[str, tuple[pd.Series, str, tuple[str, ...]]] = {}
+    for name, spec in manifest.spec.series.items():
+        table = tables[spec.dataset]
+        raw = table.column(spec.column, manifest.locate("series", name, "column"))
+        notes: list[str] = []
+        if raw.index[0] != table.periods[0] or raw.index[-1] != table.periods[-1]:
+            notes.append(f"column '{spec.column}' holds values from {period_label(raw.index[0])} to "
+                         f"{period_label(raw.index[-1])}; the dataset runs from {period_label(table.periods[0])} "
+                         f"to {period_label(table.periods[-1])}")
+        steps = manifest.transforms[name]
+        values = apply_transforms(raw, steps, table.frequency, manifest.locate("series", name, "transform"))
+        built[name] = (values.rename(name), lineage_of(spec.column, steps, table.frequency), tuple(notes))
+    return built
+
+
+def _stats_settings(manifest: Manifest) -> StatsSettings:
+    settings = manifest.spec.settings
+    return StatsSettings(significance=float(settings.significance), max_order=settings.max_order,
+                         lag_criterion=settings.lag_criterion, deterministic=settings.deterministic)
+
+
+def regression_data(manifest: Manifest, name: str, series: Mapping[str, pd.Series],
+                    frequencies: Mapping[str, str]) -> pd.DataFrame:
+    """The aligned sample of a regression's variables: common periods, within its window."""
+    formula = manifest.formulas[name]
+    spec = manifest.spec.regressions[name]
+    where = manifest.locate("regressions", name, "formula")
+    used = {variable: frequencies[variable] for variable in formula.variables}
+    if len(set(used.values())) > 1:
+        listing = ", ".join(f"{variable} is {frequency}" for variable, frequency in used.items())
+        raise DataError(f"regression '{name}' mixes frequencies ({listing})", location=where,
+                        hint="regress series of one frequency; convert a dataset first")
+    frequency = next(iter(used.values()))
+    frame = pd.concat([series[variable] for variable in formula.variables], axis=1, join="inner")
+    if spec.sample is not None:
+        for bound, how in (("start", "start"), ("end", "end")):
+            text = getattr(spec.sample, bound)
+            if text is None:
+                continue
+            period = parse_period(text, frequency, how)
+            if period is None:
+                raise DataError(f"cannot read the sample {bound} '{text}' as a {frequency} period",
+                                location=manifest.locate("regressions", name, "sample", bound),
+                                hint="write periods as 2010, 2010Q1, 2010-01 or 2010-01-31")
+            frame = frame[frame.index >= period] if bound == "start" else frame[frame.index <= period]
+    return frame
+
+
+def _infeasible(name: str, formula_text: str, dependent: str, regressors: tuple[str, ...],
+                orders: Mapping[str, int | None], reason: str) -> RegressionAssessment:
+    """An inconclusive assessment for a regression that cannot be estimated on its sample."""
+    return RegressionAssessment(
+        name=name, formula=formula_text, dependent=dependent, regressors=regressors, orders=dict(orders),
+        verdict="inconclusive", cointegrated=None, flagged=True,
+        trail=(f"The regression cannot be estimated: {reason}", "Verdict inconclusive: too little data."),
+        levels=None)
+
+
+def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _quiet) -> Results:
+    """Run every stage up to the results (no files written)."""
+    settings = _stats_settings(manifest)
+    progress("reading data")
+    tables = load_tables(manifest)
+    built = build_series(manifest, tables)
+    frequencies = {name: tables[manifest.spec.series[name].dataset].frequency for name in built}
+
+    records: dict[str, SeriesRecord] = {}
+    for position, (name, (values, lineage, notes)) in enumerate(built.items(), start=1):
+        progress(f"order of integration {position}/{len(built)}: {name}")
+        spec = manifest.spec.series[name]
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            verdict = integration_order(name, values, settings, spec.deterministic)
+        extra = tuple(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught))
+        records[name] = SeriesRecord(
+            name=name, label=spec.label or lineage, dataset=spec.dataset, column=spec.column,
+            transforms=tuple(step.name if step.parameter is None else f"{step.name}:{step.parameter}"
+                             for step in manifest.transforms[name]),
+            lineage=lineage, frequency=frequencies[name], start=period_label(values.index[0]),
+            end=period_label(values.index[-1]), dates=index_labels(values.index),
+            values=tuple(float(v) for v in values.to_numpy()), verdict=verdict, notes=notes + extra)
+
+    assessments: dict[str, RegressionAssessment] = {}
+    series_values = {name: values for name, (values, _, _) in built.items()}
+    for position, (name, formula) in enumerate(manifest.formulas.items(), start=1):
+        progress(f"regression {position}/{len(manifest.formulas)}: {name}")
+        data = regression_data(manifest, name, series_values, frequencies)
+        orders = {variable: records[variable].verdict.order for variable in formula.variables}
+        if data.empty:
+            assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders,
+                                            "the variables share no periods within the sample window")
+            continue
+        try:
+            with warnings.catch_warnings(record=True):
+                warnings.simplefilter("always")
+                assessments[name] = assess_regression(name, formula.text, formula.dependent, formula.regressors,
+                                                      data, orders, settings)
+        except InsufficientDataError as error:
+            assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders,
+                                            error.message)
+        except DataError as error:
+            raise DataError(error.message, location=manifest.locate("regressions", name, "formula"),
+                            hint=error.hint) from None
+
+    inputs = [InputRecord(role="manifest", name="manifest", path=str(manifest.path),
+                          relative_path=manifest.path.name, sha256=sha256_bytes(manifest.raw),
+                          bytes=len(manifest.raw))]
+    datasets: dict[str, DatasetRecord] = {}
+    for name, table in tables.items():
+        inputs.append(InputRecord(role="data", name=name, path=str(table.path), relative_path=table.display_path,
+                                  sha256=sha256_bytes(table.raw), bytes=len(table.raw)))
+        datasets[name] = DatasetRecord(
+            name=name, path=table.display_path, index_column=table.index_column, frequency=table.frequency,
+            frequency_source=table.frequency_source, rows=len(table.periods), start=period_label(table.periods[0]),
+            end=period_label(table.periods[-1]), columns=tuple(table.cells), table_sha256=canonical_table_hash(table),
+            notes=table.notes)
+    env = environment(command, manifest.base_dir)
+    settings_record = manifest.spec.settings.model_dump()
+    identifier = run_id(__version__, [record.sha256 for record in inputs], settings_record, env["packages"])
+    project = manifest.spec.project.model_dump()
+    return Results(tool_version=__version__, run_id=identifier, created=build_time(), project=project,
+                   settings=settings_record, inputs=tuple(inputs), environment=env, datasets=datasets,
+                   series=records, regressions=assessments,
+                   regression_labels={name: spec.label or name for name, spec in manifest.spec.regressions.items()},
+                   methods=methods_text())
+
+
+def _check_out_dir(out_dir: Path) -> None:
+    if out_dir.exists() and not out_dir.is_dir():
+        raise OutputError(f"the output path {out_dir} is a file", location=Location(out_dir),
+                          hint="name a folder for the dossier")
+    if out_dir.is_dir() and any(out_dir.iterdir()) and not (out_dir / RESULTS_FILE).is_file():
+        raise OutputError(f"the output folder {out_dir} holds files that are not a reportgen dossier",
+                          location=Location(out_dir), hint="choose an empty or new folder")
+
+
+def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[str], *, manifest: Manifest,
+                  template_dirs: Sequence[Path] = (), progress: Progress = _quiet) -> RunOutcome:
+    """Write results.json and the asked-for renderings into ``out_dir``, atomically."""
+    _check_out_dir(out_dir)
+    out_dir.parent.mkdir(parents=True, exist_ok=True)
+    staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
+    try:
+        written = [RESULTS_FILE]
+        (staging / RESULTS_FILE).write_text(dumps(document), encoding="utf-8")
+        if "html" in formats or "pdf" in formats:
+            from reportgen.render.html import render_html
+            from reportgen.render.plots import render_plots
+
+            progress("drawing charts")
+            plots = render_plots(document)
+            progress("writing HTML")
+            html = render_html(document, plots, template_dirs)
+            if "html" in formats:
+                (staging / "dossier.html").write_text(html, encoding="utf-8")
+                written.append("dossier.html")
+            if "pdf" in formats:
+                from reportgen.render.pdf import render_pdf
+
+                progress("writing PDF")
+                render_pdf(html, staging / "dossier.pdf", base_dir=manifest.base_dir, created=document["created"],
+                           attachments=(manifest.path, staging / RESULTS_FILE))
+                written.append("dossier.pdf")
+        _swap_into_place(staging, out_dir)
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
+    return RunOutcome(out_dir=out_dir, files=tuple(out_dir / name for name in written), document=document)
+
+
+def _swap_into_place(staging: Path, out_dir: Path) -> None:
+    """Replace ``out_dir`` by ``staging`` so that at every moment one complete dossier exists."""
+    if out_dir.exists():
+        retired = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.previous-", dir=out_dir.parent))
+        retired.rmdir()
+        os.replace(out_dir, retired)
+        try:
+            os.replace(staging, out_dir)
+        except BaseException:
+            os.replace(retired, out_dir)
+            raise
+        shutil.rmtree(retired, ignore_errors=True)
+    else:
+        os.replace(staging, out_dir)
+
+
+def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] = FORMATS, *,
+        template_dirs: Sequence[Path] = (), command: Sequence[str] | None = None,
+        progress: Progress = _quiet) -> RunOutcome:
+    """Load, analyse and write a dossier; the one function the command line and notebooks call."""
+    manifest = load_manifest(manifest_path)
+    out = Path(out_dir)
+    _check_out_dir(out)
+    results = analyse(manifest, command if command is not None else sys.argv, progress)
+    document = results_to_dict(results)
+    return write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
+                         progress=progress)

@@ -1,0 +1,41 @@
+"""Fixed vocabularies of reportgen, checked once when the manifest is loaded.
+
+Every choice a user can make, and every verdict reportgen can give, is spelled here so that
+the manifest schema, the statistics and the dossier all use the same words.
+"""
+
+from __future__ import annotations
+
+from typing import Final, Literal, get_args
+
+#: Deterministic terms of a unit-root or stationarity test regression.
+Deterministic = Literal["none", "constant", "constant-trend"]
+#: How the deterministic terms are chosen: by reportgen's documented rule, or fixed by the user.
+DeterministicPolicy = Literal["auto", "constant", "constant-trend"]
+#: Criterion for the number of lagged differences in the ADF regression.
+LagCriterion = Literal["aic", "bic", "t-stat"]
+#: Verdict on a regression (see DESIGN.md, "Contracts").
+Verdict = Literal["stationary", "cointegrated", "spurious-risk", "unbalanced", "inconclusive"]
+#: Sampling frequency of a dataset.
+Frequency = Literal["annual", "quarterly", "monthly", "weekly", "daily"]
+#: Names of transforms a series may declare, applied left to right.
+TransformName = Literal["log", "diff", "log-diff", "growth", "seasonal-diff", "lag"]
+#: Significance levels reportgen accepts (the levels the critical-value tables carry).
+SIGNIFICANCE_LEVELS: Final[tuple[float, ...]] = (0.01, 0.05, 0.10)
+
+#: Verdicts that mark a regression as needing attention.
+FLAGGED_VERDICTS: Final[frozenset[str]] = frozenset({"spurious-risk", "unbalanced", "inconclusive"})
+
+#: Periods per year, used for seasonal differences and for display.
+PERIODS_PER_YEAR: Final[dict[str, int]] = {
+    "annual": 1,
+    "quarterly": 4,
+    "monthly": 12,
+    "weekly": 52,
+    "daily": 7,  # a daily series' "season" is the week
+}
+
+
+def allowed(vocabulary: object) -> tuple[str, ...]:
+    """The allowed words of a ``Literal`` vocabulary, for error messages."""
+    return tuple(str(word) for word in get_args(vocabulary))
