@@ -234,22 +234,23 @@ def _describe_expected(error: Mapping[str, Any]) -> str:
 def _fields_of(model: type[BaseModel], path: KeyPath) -> list[str]:
     """The allowed keys at a key path of the schema, for 'did you mean' suggestions."""
     current: Any = model
+    entry_name_next = False
     for part in path:
-        if isinstance(part, int):
+        if isinstance(part, int) or entry_name_next:
+            entry_name_next = False
             continue
-        if isinstance(current, type) and issubclass(current, BaseModel):
-            field = current.model_fields.get(str(part))
-            if field is None:
-                return []
-            annotation = field.annotation
-            args = getattr(annotation, "__args__", ())
-            if getattr(annotation, "__origin__", None) is dict:
-                current = args[1]
-                continue
-            candidates = [arg for arg in (annotation, *args) if isinstance(arg, type) and issubclass(arg, BaseModel)]
-            current = candidates[0] if candidates else None
-        else:  # a dict of models: this part is the entry's name
+        if not (isinstance(current, type) and issubclass(current, BaseModel)):
+            return []
+        field = current.model_fields.get(str(part))
+        if field is None:
+            return []
+        annotation = field.annotation
+        args = getattr(annotation, "__args__", ())
+        if getattr(annotation, "__origin__", None) is dict:
+            current, entry_name_next = args[1], True
             continue
+        candidates = [arg for arg in (annotation, *args) if isinstance(arg, type) and issubclass(arg, BaseModel)]
+        current = candidates[0] if candidates else None
     if isinstance(current, type) and issubclass(current, BaseModel):
         return list(current.model_fields)
     return []

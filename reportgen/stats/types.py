@@ -9,6 +9,7 @@ Dates are ISO-like period labels (``"2011-03"``, ``"2011Q1"``, ``"2011"``, ``"20
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import ClassVar
 
 from reportgen.vocabulary import Deterministic, Verdict
 
@@ -21,6 +22,8 @@ class TestResult:
     response surface it comes from; ``pvalue`` then holds the edge of that range, never a clipped
     value passed off as exact.
     """
+
+    __test__: ClassVar[bool] = False  # not a pytest test class, despite its name
 
     test: str  # "ADF" or "KPSS" (more tests arrive with the battery)
     null_hypothesis: str  # "unit root" or "stationarity"
