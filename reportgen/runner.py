@@ -209,6 +209,7 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
     out_dir.parent.mkdir(parents=True, exist_ok=True)
     staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
     try:
+        staging.chmod(_folder_mode())
         written = [RESULTS_FILE]
         (staging / RESULTS_FILE).write_text(dumps(document), encoding="utf-8")
         if "html" in formats or "pdf" in formats:
@@ -234,6 +235,13 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
         shutil.rmtree(staging, ignore_errors=True)
         raise
     return RunOutcome(out_dir=out_dir, files=tuple(out_dir / name for name in written), document=document)
+
+
+def _folder_mode() -> int:
+    """The mode a new folder gets under the current umask (mkdtemp makes it private)."""
+    umask = os.umask(0)
+    os.umask(umask)
+    return 0o777 & ~umask
 
 
 def _swap_into_place(staging: Path, out_dir: Path) -> None:

@@ -1,0 +1,187 @@
+"""The dossier as PDF: WeasyPrint lays out the same HTML, reading local files only.
+
+The PDF is a pure function of the HTML, the ``created`` time and the attachments: its creation
+and modification dates are ``created`` (not the clock), its file identifier is derived from its
+content, and the attachments carry ``created`` as their dates, so two runs give identical bytes.
+Nothing is fetched from the network: the URL fetcher serves ``file:`` URLs inside the manifest's
+folder or the template folders, and ``data:`` URLs; anything else stops the rendering.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import datetime
+import logging
+import mimetypes
+import os
+from collections.abc import Iterator, Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+from urllib.parse import urlsplit
+from urllib.request import url2pathname
+
+from weasyprint.urls import URLFetcher, URLFetcherResponse  # type: ignore[import-untyped]
+
+from reportgen.render.environment import TemplateError, packaged_templates_dir
+
+
+class ResourceRefusedError(TemplateError):
+    """The HTML asked for a resource outside the allowed local folders (or on the network)."""
+
+
+class LocalFileFetcher(URLFetcher):  # type: ignore[misc]
+    """A WeasyPrint URL fetcher that serves local files under ``roots`` and ``data:`` URLs only.
+
+    Every refusal raises :class:`ResourceRefusedError`; WeasyPrint is told to stop on fetch
+    errors, so a refused resource never turns into a silently missing image.
+    """
+
+    def __init__(self, roots: Sequence[Path]) -> None:
+        super().__init__(timeout=5, allowed_protocols=("file", "data"), allow_redirects=False,
+                         fail_on_errors=True)
+        self.roots = tuple(Path(root).resolve() for root in roots)
+
+    def fetch(self, url: str, headers: Any = None) -> URLFetcherResponse:
+        """Serve ``url`` if it is a ``data:`` URL or a file inside one of the roots."""
+        scheme = url.split(":", 1)[0].lower() if ":" in url else ""
+        if scheme == "data":
+            return super().fetch(url, headers)
+        if scheme != "file":
+            raise ResourceRefusedError(
+                f"the dossier may not load {url!r}: only local files and data: URLs are allowed",
+                hint="copy the resource into the manifest's folder and refer to it by a relative path",
+            )
+        path = Path(url2pathname(urlsplit(url).path)).resolve()
+        if not any(path.is_relative_to(root) for root in self.roots):
+            raise ResourceRefusedError(
+                f"the dossier may not load {path}: it is outside "
+                + " and ".join(str(root) for root in self.roots),
+                hint="keep images and stylesheets next to the manifest or in the template folder",
+            )
+        if not path.is_file():
+            raise ResourceRefusedError(f"the dossier refers to {path}, which does not exist")
+        content_type = mimetypes.guess_type(path.name)[0] or "application/octet-stream"
+        return URLFetcherResponse(path.as_uri(), body=path.read_bytes(), headers={"Content-Type": content_type})
+
+
+def pdf_timestamp(created: str) -> datetime.datetime:
+    """``created`` (ISO 8601; ``Z`` or an offset; naive means UTC) as a UTC time to the second."""
+    try:
+        moment = datetime.datetime.fromisoformat(created.strip())
+    except ValueError as error:
+        raise ValueError(f"created must be an ISO 8601 time such as 2024-05-06T09:30:00Z, not {created!r}") from error
+    if moment.tzinfo is None:
+        moment = moment.replace(tzinfo=datetime.UTC)
+    return moment.astimezone(datetime.UTC).replace(microsecond=0)
+
+
+@dataclass(frozen=True, slots=True)
+class BuiltPdf:
+    """A laid-out dossier: the PDF bytes, its page count and title, and WeasyPrint's warnings."""
+
+    data: bytes
+    pages: int
+    title: str | None = None
+    warnings: tuple[str, ...] = ()
+
+
+class _Collect(logging.Handler):
+    """Keeps WeasyPrint's warnings and errors (it logs them; it does not raise them)."""
+
+    def __init__(self) -> None:
+        super().__init__(level=logging.WARNING)
+        self.messages: list[str] = []
+
+    def emit(self, record: logging.LogRecord) -> None:
+        self.messages.append(record.getMessage())
+
+
+@contextlib.contextmanager
+def _fixed_clock(moment: datetime.datetime) -> Iterator[_Collect]:
+    """Pin ``SOURCE_DATE_EPOCH`` to ``moment`` and collect WeasyPrint's log messages.
+
+    fontTools stamps every font subset it writes into the PDF with the current time unless
+    ``SOURCE_DATE_EPOCH`` is set, which would make two renderings differ.
+    """
+    previous = os.environ.get("SOURCE_DATE_EPOCH")
+    os.environ["SOURCE_DATE_EPOCH"] = str(int(moment.timestamp()))
+    handler = _Collect()
+    logger = logging.getLogger("weasyprint")
+    logger.addHandler(handler)
+    try:
+        yield handler
+    finally:
+        logger.removeHandler(handler)
+        if previous is None:
+            del os.environ["SOURCE_DATE_EPOCH"]
+        else:
+            os.environ["SOURCE_DATE_EPOCH"] = previous
+
+
+def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[Path] = (),
+              template_dirs: Sequence[Path] = ()) -> BuiltPdf:
+    """Lay out ``html`` with WeasyPrint and return the PDF bytes (see :func:`render_pdf`)."""
+    from weasyprint import HTML, Attachment  # type: ignore[import-untyped]
+    from weasyprint.urls import FatalURLFetchingError
+
+    moment = pdf_timestamp(created)
+    stamp = moment.strftime("%Y-%m-%dT%H:%M:%SZ")
+    fetcher = LocalFileFetcher([Path(base_dir), packaged_templates_dir(), *template_dirs])
+    files: list[Any] = []
+    for path in attachments:
+        path = Path(path)
+        if not path.is_file():
+            raise FileNotFoundError(f"cannot attach {path} to the PDF: no such file")
+        files.append(Attachment(filename=str(path), name=path.name, description=f"{path.name}, attached by reportgen",
+                                created=moment, modified=moment, url_fetcher=fetcher,
+                                relationship="Data" if path.suffix == ".json" else "Source"))
+    try:
+        with _fixed_clock(moment) as log:
+            document = HTML(string=html, base_url=str(Path(base_dir).resolve()) + os.sep, url_fetcher=fetcher,
+                            media_type="print").render()
+            document.metadata.created = stamp
+            document.metadata.modified = stamp
+            data = document.write_pdf(attachments=files, pdf_identifier=True)
+    except FatalURLFetchingError as error:
+        cause = error.__cause__
+        if isinstance(cause, TemplateError):
+            raise cause from None
+        raise TemplateError(f"a resource of the dossier could not be loaded: {cause or error}") from error
+    return BuiltPdf(data=data, pages=len(document.pages), title=document.metadata.title,
+                    warnings=tuple(log.messages))
+
+
+def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attachments: Sequence[Path] = ()) -> None:
+    """Write the dossier PDF to ``out_path`` (atomically: a temporary file, then a rename).
+
+    Parameters
+    ----------
+    html
+        The page from :func:`reportgen.render.html.render_html`.
+    out_path
+        Where the PDF goes.
+    base_dir
+        The manifest's folder: relative URLs resolve against it and only files inside it (or
+        inside the packaged template folder) may be loaded.
+    created
+        The run's timestamp (``document["created"]``), used for every date in the PDF.
+    attachments
+        Files embedded in the PDF (the manifest and results.json), under their own names.
+
+    Raises
+    ------
+    ResourceRefusedError
+        The HTML refers to a network resource or to a file outside the allowed folders.
+    """
+    built = build_pdf(html, base_dir=base_dir, created=created, attachments=attachments)
+    out_path = Path(out_path)
+    # A plain open() so the file gets the usual permissions (umask), unlike tempfile's 0600.
+    temporary = out_path.with_name(f".{out_path.name}.{os.getpid()}.partial")
+    try:
+        with open(temporary, "wb") as stream:
+            stream.write(built.data)
+        os.replace(temporary, out_path)
+    except BaseException:
+        temporary.unlink(missing_ok=True)
+        raise
