@@ -97,6 +97,7 @@ class SettingsSpec(_Model):
     max_order: Literal[1, 2] = 2
     lag_criterion: LagCriterion = "aic"
     deterministic: DeterministicPolicy = "auto"
+    seed: int = Field(default=20240601, ge=0, le=2**32 - 1)
 
 
 class ManifestSpec(_Model):

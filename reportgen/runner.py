@@ -84,7 +84,8 @@ def build_series(manifest: Manifest, tables: Mapping[str, Table]) -> dict[str, t
 def _stats_settings(manifest: Manifest) -> StatsSettings:
     settings = manifest.spec.settings
     return StatsSettings(significance=float(settings.significance), max_order=settings.max_order,
-                         lag_criterion=settings.lag_criterion, deterministic=settings.deterministic)
+                         lag_criterion=settings.lag_criterion, deterministic=settings.deterministic,
+                         seed=settings.seed)
 
 
 def regression_data(manifest: Manifest, name: str, series: Mapping[str, pd.Series],

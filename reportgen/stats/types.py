@@ -42,6 +42,40 @@ class TestResult:
     rejects: bool  # rejects its null at the manifest's significance level
     significance: float
     notes: tuple[str, ...] = ()
+    pvalue_source: str = ""  # e.g. "MacKinnon (1994) response surface"
+    bandwidth: int | None = None  # long-run variance bandwidth (KPSS, Phillips-Perron); None for ADF
+    bandwidth_rule: str = ""  # e.g. "Newey and West (1994) automatic, Bartlett kernel"
+    break_date: str | None = None  # Zivot-Andrews: period label of the estimated break (convention in notes)
+    lag_criterion: str | None = None  # "aic", "bic", "t-stat" or "fixed" where lags were searched
+    auxiliary: bool = False  # run only to choose deterministic terms, not part of the decision
+
+
+@dataclass(frozen=True, slots=True)
+class GridCell:
+    """One cell of a series' robustness grid: the order one test alone implies under one set of choices."""
+
+    test: str  # "ADF", "PP", "DF-GLS", "KPSS", or "combined" for the whole decision procedure
+    lag_criterion: str  # "aic", "bic", "t-stat" (tests without a lag search repeat the same cell)
+    deterministic: Deterministic
+    order: int | None
+
+
+@dataclass(frozen=True, slots=True)
+class FanChart:
+    """Simulated random walks calibrated to a series' drift and innovation spread (seeded).
+
+    ``bands`` maps a quantile label ("5%", "25%", "50%", "75%", "95%") to a path the length of
+    ``dates``; every path starts at the series' first value.
+    """
+
+    dates: tuple[str, ...]
+    bands: dict[str, tuple[float, ...]]
+    drift: float
+    innovation_std: float
+    replications: int
+    seed: int
+    share_outside: float  # share of the observed path outside the 5%-95% band
+    description: str
 
 
 @dataclass(frozen=True, slots=True)
@@ -57,6 +91,10 @@ class OrderVerdict:
     reason: str | None  # why the order is None; None when an order was found
     nobs: int  # observations of the series (level 0)
     notes: tuple[str, ...] = ()  # captured library warnings and other remarks
+    grid: tuple[GridCell, ...] = ()  # the robustness grid: lag criterion x deterministic terms x test
+    fragile: bool = False  # the combined order changes somewhere in the grid
+    fragile_reason: str | None = None  # which choices change it
+    fan_chart: FanChart | None = None  # for integrated series (order >= 1)
 
 
 @dataclass(frozen=True, slots=True)
@@ -101,6 +139,10 @@ class Fit:
     residuals: tuple[float, ...]
     diagnostics: tuple[DiagnosticTest, ...] = ()
     notes: tuple[str, ...] = ()
+    hac_kernel: str = ""  # "Bartlett"; empty for classical standard errors
+    hac_bandwidth: int | None = None  # lags in the Newey-West estimator
+    hac_bandwidth_rule: str = ""  # e.g. "int(4 (T/100)^(2/9))"
+    small_sample_correction: bool = False
 
 
 @dataclass(frozen=True, slots=True)
@@ -120,6 +162,55 @@ class CointegrationTest:
     lag_rule: str
     nobs: int
     rejects: bool  # rejects "no cointegration" at the manifest's significance level
+    significance: float
+    notes: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class RankTest:
+    """One step of a Johansen sequence: H0 rank <= r against the trace or maximum-eigenvalue alternative."""
+
+    rank: int  # r under the null hypothesis
+    statistic: float
+    critical_values: dict[str, float]  # "90%", "95%", "99%"
+    rejects: bool  # at the manifest's significance level
+
+
+@dataclass(frozen=True, slots=True)
+class JohansenResult:
+    """Johansen's reduced-rank tests on a VAR of the integrated variables."""
+
+    variables: tuple[str, ...]
+    case: int  # 1-5 in the usual numbering (1 none, 2 restricted constant, 3 unrestricted constant, ...)
+    case_description: str
+    lags: int  # lagged differences in the VAR's error-correction form (VAR order minus one)
+    lag_rule: str
+    nobs: int
+    eigenvalues: tuple[float, ...]
+    trace: tuple[RankTest, ...]
+    max_eigenvalue: tuple[RankTest, ...]
+    rank: int  # chosen by the sequential trace procedure
+    rank_rule: str
+    critical_values_source: str
+    significance: float
+    notes: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class BoundsTestResult:
+    """Pesaran, Shin and Smith (2001) bounds test for a levels relation in an ARDL model."""
+
+    dependent: str
+    regressors: tuple[str, ...]
+    case: int  # PSS case (I-V)
+    case_description: str
+    lags: dict[str, int]  # ARDL lag order of each variable
+    lag_rule: str
+    nobs: int
+    f_statistic: float
+    critical_values: dict[str, tuple[float, float]]  # level -> (I(0) bound, I(1) bound)
+    critical_values_source: str
+    decision: str  # "levels relation", "no levels relation", "inside the bounds"
     significance: float
     notes: tuple[str, ...] = ()
 
@@ -147,6 +238,12 @@ class RegressionAssessment:
     sample_start: str = ""
     sample_end: str = ""
     notes: tuple[str, ...] = field(default_factory=tuple)
+    engle_granger: tuple[CointegrationTest, ...] = ()  # every normalisation (each variable on the left)
+    johansen: JohansenResult | None = None
+    bounds_test: BoundsTestResult | None = None
+    adjustment_speed: float | None = None  # the error-correction coefficient on ec(-1)
+    fragile: bool = False  # a variable's order is fragile, or the cointegration tests disagree
+    fragile_reason: str | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -158,3 +255,5 @@ class StatsSettings:
     lag_criterion: str = "aic"  # "aic", "bic" or "t-stat"
     deterministic: str = "auto"  # "auto", "constant" or "constant-trend"
     min_observations: int = 20  # fewer observations at a differencing level: no test, order None
+    seed: int = 20240601  # for every simulation (fan charts); results are identical for the same seed
+    fan_replications: int = 500
