@@ -146,7 +146,11 @@ def results_to_dict(results: Results) -> dict[str, Any]:
             "deterministic": verdict["deterministic"],
             "deterministic_reasons": verdict["deterministic_reasons"],
             "trail": verdict["trail"],
+            "fragile": verdict["fragile"],
+            "fragile_reason": verdict["fragile_reason"],
             "tests": verdict["tests"],
+            "grid": verdict["grid"],
+            "fan_chart": verdict["fan_chart"],
             "notes": list(record.notes) + verdict["notes"],
             "data": {"dates": list(record.dates), "values": _plain(record.values)},
         }

@@ -38,6 +38,40 @@ TESTS: tuple[dict[str, str], ...] = (
         "reference": "Kwiatkowski, Phillips, Schmidt and Shin (1992); Hobijn, Franses and Ooms (1998)",
     },
     {
+        "name": "Phillips-Perron (PP)",
+        "null_hypothesis": "the series has a unit root",
+        "description": (
+            "The Dickey-Fuller regression without lagged differences; the t-statistic on the lagged level is "
+            "corrected non-parametrically for serial correlation with a Bartlett-kernel long-run variance "
+            "(Phillips and Perron 1988, Z_t form). It shares the Dickey-Fuller distribution, so MacKinnon's "
+            "critical values and p-values apply."
+        ),
+        "reference": "Phillips and Perron (1988); MacKinnon (1994, 2010)",
+    },
+    {
+        "name": "DF-GLS",
+        "null_hypothesis": "the series has a unit root",
+        "description": (
+            "The series is detrended by generalised least squares against a local alternative (c = -7 with a "
+            "constant, -13.5 with a constant and trend) and an ADF regression without deterministic terms is run "
+            "on the detrended series (Elliott, Rothenberg and Stock 1996). It has more power than ADF near the "
+            "unit root. Critical values: Elliott, Rothenberg and Stock (1996, Table I) with a trend, the "
+            "no-constant Dickey-Fuller values with a constant."
+        ),
+        "reference": "Elliott, Rothenberg and Stock (1996)",
+    },
+    {
+        "name": "Zivot-Andrews (ZA)",
+        "null_hypothesis": "a unit root without a structural break",
+        "description": (
+            "ADF regressions with a one-time break in the intercept (or in the intercept and trend) at every "
+            "candidate date inside the trimmed sample (15% at each end); the statistic is the smallest "
+            "t-statistic, and the break date is where it occurs. It guards against mistaking a stationary "
+            "series with a level shift for a unit root; it is reported beside the battery and does not vote."
+        ),
+        "reference": "Zivot and Andrews (1992)",
+    },
+    {
         "name": "Engle-Granger residual test",
         "null_hypothesis": "no cointegration (the levels regression's residuals have a unit root)",
         "description": (
@@ -50,15 +84,65 @@ TESTS: tuple[dict[str, str], ...] = (
         "reference": "Engle and Granger (1987); MacKinnon (1994, 2010)",
     },
     {
+        "name": "Johansen reduced-rank tests",
+        "null_hypothesis": "the cointegrating rank is at most r (trace), or exactly r against r + 1 "
+                           "(maximum eigenvalue)",
+        "description": (
+            "The eigenvalues of the reduced-rank regression of a vector error-correction model with the stated "
+            "deterministic case give the trace and maximum-eigenvalue statistics for each rank r. The rank is "
+            "chosen by the sequential trace procedure: the first r whose null hypothesis is not rejected. "
+            "Critical values: MacKinnon, Haug and Michelis (1999) for the unrestricted cases, Osterwald-Lenum "
+            "(1992) for the restricted ones."
+        ),
+        "reference": "Johansen (1988, 1991); MacKinnon, Haug and Michelis (1999); Osterwald-Lenum (1992)",
+    },
+    {
+        "name": "ARDL bounds test",
+        "null_hypothesis": "no levels relation (the lagged levels in the conditional error-correction model are "
+                           "jointly zero)",
+        "description": (
+            "An F-test on the lagged levels of an ARDL model in error-correction form, compared with two bounds: "
+            "the critical value if every regressor were I(0) and if every regressor were I(1). Above the upper "
+            "bound a levels relation exists whatever the regressors' orders; below the lower bound it does not; "
+            "between them the test cannot decide. Used when the regressors mix I(0) and I(1) series; the case "
+            "(deterministic terms) is stated with the result, and the critical values are looked up for the "
+            "actual number of regressors."
+        ),
+        "reference": "Pesaran, Shin and Smith (2001)",
+    },
+    {
+        "name": "Dynamic OLS long-run coefficients",
+        "null_hypothesis": "each long-run coefficient is zero (t-test)",
+        "description": (
+            "The levels regression augmented with leads and lags of the regressors' first differences, so that "
+            "the long-run coefficients have standard errors valid for inference when the variables are "
+            "cointegrated; standard errors are HAC (Newey-West, Bartlett kernel)."
+        ),
+        "reference": "Stock and Watson (1993)",
+    },
+    {
         "name": "OLS with HAC standard errors",
         "null_hypothesis": "each coefficient is zero (t-test)",
         "description": (
             "Levels, differences and error-correction equations are fitted by OLS with Newey-West standard "
-            "errors (Bartlett kernel, int(4 (T/100)^(2/9)) lags, small-sample correction). Durbin-Watson, "
-            "Ljung-Box, Breusch-Godfrey and Jarque-Bera diagnostics accompany every fit."
+            "errors (Bartlett kernel, int(4 (T/100)^(2/9)) lags, small-sample correction); residuals are computed "
+            "by reportgen from the fitted equation. Durbin-Watson, Ljung-Box, Breusch-Godfrey, Jarque-Bera, "
+            "Breusch-Pagan and Ramsey RESET diagnostics accompany every fit."
         ),
         "reference": "Newey and West (1987, 1994); Durbin and Watson (1950); Ljung and Box (1978); "
-                     "Breusch (1978); Godfrey (1978); Jarque and Bera (1980)",
+                     "Breusch (1978); Godfrey (1978); Jarque and Bera (1980); Breusch and Pagan (1979); "
+                     "Ramsey (1969)",
+    },
+    {
+        "name": "Random-walk fan chart",
+        "null_hypothesis": "(a picture, not a test)",
+        "description": (
+            "For each integrated series, random walks with the series' own mean and standard deviation of first "
+            "differences are simulated from its first value with a fixed seed; the 5-95% and 25-75% bands show "
+            "where a random walk of that kind would wander, so a reader can see whether the series behaves "
+            "like one."
+        ),
+        "reference": "common practice",
     },
     {
         "name": "Error-correction model (Engle-Granger two-step)",
@@ -75,10 +159,16 @@ TESTS: tuple[dict[str, str], ...] = (
 
 REFERENCES: tuple[str, ...] = (
     "Breusch, T. S. (1978). Testing for autocorrelation in dynamic linear models. Australian Economic Papers 17.",
+    "Breusch, T. S. and Pagan, A. R. (1979). A simple test for heteroscedasticity and random coefficient "
+    "variation. Econometrica 47.",
+    "Dickey, D. A. and Pantula, S. G. (1987). Determining the order of differencing in autoregressive "
+    "processes. Journal of Business and Economic Statistics 5.",
     "Dickey, D. A. and Fuller, W. A. (1979). Distribution of the estimators for autoregressive time series with a "
     "unit root. Journal of the American Statistical Association 74.",
     "Durbin, J. and Watson, G. S. (1950). Testing for serial correlation in least squares regression I. "
     "Biometrika 37.",
+    "Elliott, G., Rothenberg, T. J. and Stock, J. H. (1996). Efficient tests for an autoregressive unit root. "
+    "Econometrica 64.",
     "Engle, R. F. and Granger, C. W. J. (1987). Co-integration and error correction: representation, estimation "
     "and testing. Econometrica 55.",
     "Godfrey, L. G. (1978). Testing against general autoregressive and moving average error models when the "
@@ -86,11 +176,17 @@ REFERENCES: tuple[str, ...] = (
     "Granger, C. W. J. and Newbold, P. (1974). Spurious regressions in econometrics. Journal of Econometrics 2.",
     "Hobijn, B., Franses, P. H. and Ooms, M. (1998). Generalisations of the KPSS-test for stationarity. "
     "Econometric Institute Report 9802, Erasmus University Rotterdam.",
+    "Johansen, S. (1988). Statistical analysis of cointegration vectors. Journal of Economic Dynamics and "
+    "Control 12.",
+    "Johansen, S. (1991). Estimation and hypothesis testing of cointegration vectors in Gaussian vector "
+    "autoregressive models. Econometrica 59.",
     "Jarque, C. M. and Bera, A. K. (1980). Efficient tests for normality, homoscedasticity and serial "
     "independence of regression residuals. Economics Letters 6.",
     "Kwiatkowski, D., Phillips, P. C. B., Schmidt, P. and Shin, Y. (1992). Testing the null hypothesis of "
     "stationarity against the alternative of a unit root. Journal of Econometrics 54.",
     "Ljung, G. M. and Box, G. E. P. (1978). On a measure of lack of fit in time series models. Biometrika 65.",
+    "MacKinnon, J. G., Haug, A. A. and Michelis, L. (1999). Numerical distribution functions of likelihood "
+    "ratio tests for cointegration. Journal of Applied Econometrics 14.",
     "MacKinnon, J. G. (1994). Approximate asymptotic distribution functions for unit-root and cointegration "
     "tests. Journal of Business and Economic Statistics 12.",
     "MacKinnon, J. G. (2010). Critical values for cointegration tests. Queen's Economics Department Working "
@@ -99,10 +195,22 @@ REFERENCES: tuple[str, ...] = (
     "autocorrelation consistent covariance matrix. Econometrica 55.",
     "Newey, W. K. and West, K. D. (1994). Automatic lag selection in covariance matrix estimation. Review of "
     "Economic Studies 61.",
+    "Osterwald-Lenum, M. (1992). A note with quantiles of the asymptotic distribution of the maximum "
+    "likelihood cointegration rank test statistics. Oxford Bulletin of Economics and Statistics 54.",
+    "Pesaran, M. H., Shin, Y. and Smith, R. J. (2001). Bounds testing approaches to the analysis of level "
+    "relationships. Journal of Applied Econometrics 16.",
+    "Phillips, P. C. B. and Perron, P. (1988). Testing for a unit root in time series regression. "
+    "Biometrika 75.",
+    "Ramsey, J. B. (1969). Tests for specification errors in classical linear least-squares regression "
+    "analysis. Journal of the Royal Statistical Society B 31.",
     "Said, S. E. and Dickey, D. A. (1984). Testing for unit roots in autoregressive-moving average models of "
     "unknown order. Biometrika 71.",
     "Schwert, G. W. (1989). Tests for unit roots: a Monte Carlo investigation. Journal of Business and Economic "
     "Statistics 7.",
+    "Stock, J. H. and Watson, M. W. (1993). A simple estimator of cointegrating vectors in higher order "
+    "integrated systems. Econometrica 61.",
+    "Zivot, E. and Andrews, D. W. K. (1992). Further evidence on the great crash, the oil-price shock, and the "
+    "unit-root hypothesis. Journal of Business and Economic Statistics 10.",
 )
 
 
@@ -113,5 +221,5 @@ def methods_text() -> dict[str, Any]:
         "deterministic_rule": list(DETERMINISTIC_RULE),
         "verdict_rule": list(VERDICT_RULE),
         "tests": [dict(test) for test in TESTS],
-        "references": list(REFERENCES),
+        "references": sorted(REFERENCES),
     }
