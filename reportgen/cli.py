@@ -1,21 +1,32 @@
-"""The command line: parse arguments, call the runner, print a summary, map outcomes to exit codes.
+"""The command line: parse arguments, call the runner or the audit, print, map outcomes to exit codes.
+
+Commands:
+  reportgen run MANIFEST --out DIR [--format html,pdf|json] [--bundle] [--force] [--fail-on CONDITION]
+  reportgen verify DIR_OR_BUNDLE [--recompute] [--tolerance 1e-9]
+  reportgen diff OLD NEW [--html FILE] [--tolerance 1e-6] [--exit-code]
 
 Exit status (the one place it is decided):
-  0  the run succeeded
-  1  the run succeeded but a ``--fail-on`` condition held (reserved; not yet offered)
+  0  success: the run wrote its dossier; verify found everything as recorded; diff ran (with or
+     without differences, unless ``--exit-code``)
+  1  a condition held: ``run --fail-on`` matched a regression (the dossier is still written);
+     ``verify`` found an input, a dossier file, the run id or a recomputed value that does not
+     match; ``diff --exit-code`` found differences (git's convention)
   2  bad input or usage: a message naming the file, line or field and the fix; no traceback
+     unless ``--debug``; also a verify or diff target that is missing or not a dossier
   3  internal error (a bug): the traceback is saved to a file whose path is printed
 """
 
 from __future__ import annotations
 
 import argparse
+import math
 import os
 import sys
 import tempfile
 import traceback
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from pathlib import Path
+from typing import Any
 
 from reportgen import __version__
 from reportgen.errors import ReportgenError
@@ -31,8 +42,18 @@ class _Parser(argparse.ArgumentParser):
 
     def error(self, message: str) -> None:  # type: ignore[override]
         self.print_usage(sys.stderr)
-        sys.stderr.write(f"reportgen: error: {message}\n  hint: reportgen {self.prog.split()[-1]} --help\n")
+        command = self.prog.split()[-1]
+        where = "reportgen" if command == "reportgen" else f"reportgen {command}"
+        sys.stderr.write(f"reportgen: error: {message}\n  hint: {where} --help\n")
         raise SystemExit(EXIT_USAGE)
+
+
+#: The conditions ``run --fail-on`` can test, and what each means.
+FAIL_CONDITIONS: dict[str, str] = {
+    "flagged": "the regression is flagged (spurious-risk, unbalanced or inconclusive)",
+    "fragile": "the regression's verdict is fragile (an order or the cointegration tests depend on choices)",
+    "inconclusive": "the regression's verdict is inconclusive",
+}
 
 
 def _formats(text: str) -> tuple[str, ...]:
@@ -44,6 +65,26 @@ def _formats(text: str) -> tuple[str, ...]:
         raise argparse.ArgumentTypeError(
             f"unknown format {', '.join(unknown) or '(none)'}; choose from html, pdf, json (comma-separated)")
     return tuple(part for part in chosen if part != "json")
+
+
+def _conditions(text: str) -> tuple[str, ...]:
+    chosen = tuple(part.strip() for part in text.split(",") if part.strip())
+    unknown = [part for part in chosen if part not in FAIL_CONDITIONS]
+    if unknown or not chosen:
+        raise argparse.ArgumentTypeError(
+            f"unknown condition {', '.join(unknown) or '(none)'}; choose from {', '.join(FAIL_CONDITIONS)} "
+            "(comma-separated or repeated)")
+    return chosen
+
+
+def _tolerance(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        value = math.nan
+    if not math.isfinite(value) or value < 0:
+        raise argparse.ArgumentTypeError(f"the tolerance must be a number of at least 0, such as 1e-9; not {text!r}")
+    return value
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -60,8 +101,38 @@ def build_parser() -> argparse.ArgumentParser:
                           "'json' for results.json alone")
     run.add_argument("--templates", type=Path, action="append", default=[],
                      help="a folder of templates searched before the packaged ones (repeatable)")
+    run.add_argument("--bundle", action="store_true",
+                     help="also write DIR/bundle.zip: the manifest, a snapshot of every input, results.json, the "
+                          "dossier, environment.lock and checksums.sha256")
+    run.add_argument("--force", action="store_true",
+                     help="replace a dossier in DIR that was written from a different manifest")
+    run.add_argument("--fail-on", type=_conditions, action="append", default=[], dest="fail_on",
+                     metavar="CONDITION",
+                     help="exit with status 1 after writing the dossier when a regression is flagged, fragile or "
+                          "inconclusive (comma-separated or repeated)")
     run.add_argument("--quiet", action="store_true", help="print nothing but errors")
     run.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    verify = commands.add_parser("verify", help="check a dossier or bundle against its recorded inputs")
+    verify.add_argument("target", type=Path, metavar="DIR_OR_BUNDLE",
+                        help="a dossier folder written by 'reportgen run', or its bundle.zip")
+    verify.add_argument("--recompute", action="store_true",
+                        help="also run the analysis again (results.json only, in a temporary folder) and compare "
+                             "every number")
+    verify.add_argument("--tolerance", type=_tolerance, default=1e-9,
+                        help="relative and absolute tolerance of --recompute (default 1e-9)")
+    verify.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    diff = commands.add_parser("diff", help="list what changed between two runs")
+    diff.add_argument("old", type=Path, metavar="OLD", help="the earlier dossier folder or bundle")
+    diff.add_argument("new", type=Path, metavar="NEW", help="the later dossier folder or bundle")
+    diff.add_argument("--html", type=Path, metavar="FILE",
+                      help="also write the changes as a standalone HTML page to FILE")
+    diff.add_argument("--tolerance", type=_tolerance, default=1e-6,
+                      help="relative and absolute tolerance for numbers (default 1e-6)")
+    diff.add_argument("--exit-code", action="store_true", dest="exit_code",
+                      help="exit with status 1 when there are differences (default: 0 either way)")
+    diff.add_argument("--debug", action="store_true", help="show tracebacks of errors")
     return parser
 
 
@@ -79,12 +150,94 @@ def _summary(document: dict, out_dir: Path, files: Sequence[Path]) -> str:  # ty
     return "\n".join(lines)
 
 
+def failing_regressions(document: Mapping[str, Any], conditions: Sequence[str]) -> dict[str, list[str]]:
+    """For each ``--fail-on`` condition, the regressions (in manifest order) that meet it."""
+    tests = {
+        "flagged": lambda regression: bool(regression.get("flagged")),
+        "fragile": lambda regression: bool(regression.get("fragile")),
+        "inconclusive": lambda regression: regression.get("verdict") == "inconclusive",
+    }
+    return {condition: [name for name, regression in document["regressions"].items() if tests[condition](regression)]
+            for condition in dict.fromkeys(conditions)}
+
+
 def _crash_report(error: BaseException) -> Path:
     handle, name = tempfile.mkstemp(prefix="reportgen-crash-", suffix=".txt")
     with os.fdopen(handle, "w", encoding="utf-8") as stream:
         stream.write(f"reportgen {__version__}\n")
         stream.write("".join(traceback.format_exception(error)))
     return Path(name)
+
+
+def _run_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.runner import run
+
+    def progress(message: str) -> None:
+        if not options.quiet:
+            print(f"  {message}", file=sys.stderr, flush=True)
+
+    outcome = run(options.manifest, options.out, options.formats, template_dirs=options.templates,
+                  command=["reportgen", *arguments], progress=progress, bundle=options.bundle, force=options.force)
+    if not options.quiet:
+        print(_summary(dict(outcome.document), outcome.out_dir, outcome.files))
+    conditions = [condition for group in options.fail_on for condition in group]
+    failing = {condition: names for condition, names in failing_regressions(outcome.document, conditions).items()
+               if names}
+    if not failing:
+        return EXIT_OK
+    lines = ["reportgen: --fail-on: the dossier was written, but these regressions meet a condition:"]
+    lines += [f"  {condition}: {', '.join(names)}" for condition, names in failing.items()]
+    print("\n".join(lines), file=sys.stderr)
+    return EXIT_CONDITION
+
+
+def _verify_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.audit import format_verification, verify
+
+    verification = verify(options.target, recompute=options.recompute, tolerance=options.tolerance)
+    print(format_verification(verification))
+    return EXIT_OK if verification.ok else EXIT_CONDITION
+
+
+def _write_page(path: Path, text: str) -> None:
+    from reportgen.errors import Location, OutputError
+
+    if path.is_dir():
+        raise OutputError(f"{path} is a folder; --html needs a file name", location=Location(path),
+                          hint="name the page, e.g. --html changes.html")
+    if not path.parent.is_dir():
+        raise OutputError(f"cannot write {path}: the folder {path.parent} does not exist", location=Location(path),
+                          hint="create the folder first or choose another path")
+    handle, name = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8") as stream:
+            stream.write(text)
+        os.chmod(name, 0o666 & ~_umask())
+        os.replace(name, path)
+    except BaseException:
+        Path(name).unlink(missing_ok=True)
+        raise
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
+def _diff_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.audit import changes_html, diff_dossiers, format_changes
+
+    changes = diff_dossiers(options.old, options.new, options.tolerance)
+    if options.html is not None:
+        _write_page(options.html, changes_html(changes))
+    print(format_changes(changes))
+    if options.html is not None:
+        print(f"wrote {options.html}")
+    return EXIT_CONDITION if options.exit_code and changes.rows else EXIT_OK
+
+
+_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -96,33 +249,24 @@ def main(argv: Sequence[str] | None = None) -> int:
     except SystemExit as stop:
         return int(stop.code or 0)
     debug = getattr(options, "debug", False)
+    unchanged = "; no dossier was written or changed" if options.command == "run" else ""
     try:
-        from reportgen.runner import run
-
-        def progress(message: str) -> None:
-            if not options.quiet:
-                print(f"  {message}", file=sys.stderr, flush=True)
-
-        outcome = run(options.manifest, options.out, options.formats, template_dirs=options.templates,
-                      command=["reportgen", *arguments], progress=progress)
+        return _COMMANDS[options.command](options, arguments)
     except ReportgenError as error:
         if debug:
             traceback.print_exc()
         print(error.render(), file=sys.stderr)
         return EXIT_USAGE
     except KeyboardInterrupt:
-        print("reportgen: interrupted; no dossier was written or changed", file=sys.stderr)
+        print(f"reportgen: interrupted{unchanged}", file=sys.stderr)
         return 130
     except Exception as error:  # a bug: keep the traceback, but in a file
         if debug:
             traceback.print_exc()
         report = _crash_report(error)
         print(f"reportgen: internal error ({type(error).__name__}: {error}); this is a bug.\n"
-              f"  the traceback is in {report}; no dossier was written or changed", file=sys.stderr)
+              f"  the traceback is in {report}{unchanged}", file=sys.stderr)
         return EXIT_INTERNAL
-    if not options.quiet:
-        print(_summary(dict(outcome.document), outcome.out_dir, outcome.files))
-    return EXIT_OK
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -190,8 +190,9 @@ def read_yaml(path: Path) -> tuple[bytes, Any, dict[KeyPath, tuple[int, int]]]:
         raise ManifestError(f"the manifest is not UTF-8 text (byte {error.start})", location=Location(path),
                             hint="save the file as UTF-8") from None
     positions: dict[KeyPath, tuple[int, int]] = {(): (1, 1)}
-    loader = _StrictLoader(text)
+    loader: _StrictLoader | None = None
     try:
+        loader = _StrictLoader(text)
         node = loader.get_single_node()
         data = None if node is None else _construct(loader, node, (), positions, path)
     except yaml.MarkedYAMLError as error:
@@ -203,7 +204,8 @@ def read_yaml(path: Path) -> tuple[bytes, Any, dict[KeyPath, tuple[int, int]]]:
     except yaml.YAMLError as error:
         raise ManifestError(f"YAML error: {error}", location=Location(path)) from None
     finally:
-        loader.dispose()
+        if loader is not None:
+            loader.dispose()
     return raw, data, positions
 
 

@@ -3,14 +3,20 @@
 ``run`` calls each stage in order and writes the outputs atomically: everything goes into a
 temporary folder beside the output folder and is moved into place only when complete, so a
 failed run never leaves a half-written dossier and never destroys the previous one.
+``checksums.sha256`` is written last; the staging folder's name carries the process id, so the
+next run can remove what a killed run left (see :func:`remove_stale_staging`).
 """
 
 from __future__ import annotations
 
+import ctypes
+import errno
+import json
 import os
 import shutil
 import sys
 import tempfile
+import time
 import warnings
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
@@ -23,7 +29,7 @@ from reportgen import __version__
 from reportgen.errors import DataError, InsufficientDataError, Location, OutputError
 from reportgen.manifest import Manifest, load_manifest
 from reportgen.periods import index_labels, period_label
-from reportgen.provenance import build_time, environment, run_id, sha256_bytes
+from reportgen.provenance import build_time, checksums_text, document_run_id, environment, run_id, sha256_bytes
 from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dumps, results_to_dict
 from reportgen.sources import Table, canonical_table_hash, parse_period, read_table
 from reportgen.stats.methods import methods_text
@@ -36,6 +42,10 @@ from reportgen.transforms import apply_transforms, lineage_of
 FORMATS = ("html", "pdf")
 #: The file that marks a folder as a reportgen dossier.
 RESULTS_FILE = "results.json"
+#: The SHA-256 of every other file of the dossier folder (sha256sum format, sorted), written last.
+CHECKSUMS_FILE = "checksums.sha256"
+#: The archive bundle, written when asked (``--bundle``).
+BUNDLE_FILE = "bundle.zip"
 
 Progress = Callable[[str], None]
 
@@ -162,8 +172,10 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
         try:
             with warnings.catch_warnings(record=True):
                 warnings.simplefilter("always")
+                fragile = {variable: records[variable].verdict.fragile_reason or "fragile order"
+                           for variable in formula.variables if records[variable].verdict.fragile}
                 assessments[name] = assess_regression(name, formula.text, formula.dependent, formula.regressors,
-                                                      data, orders, settings)
+                                                      data, orders, settings, fragile_orders=fragile)
         except InsufficientDataError as error:
             assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders,
                                             error.message)
@@ -185,7 +197,9 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
             notes=table.notes)
     env = environment(command, manifest.base_dir)
     settings_record = manifest.spec.settings.model_dump()
-    identifier = run_id(__version__, [record.sha256 for record in inputs], settings_record, env["packages"])
+    identifier = run_id(__version__, [record.sha256 for record in inputs], settings_record, env["packages"],
+                        table_hashes=[record.table_sha256 for record in datasets.values()],
+                        python=env["python"], platform_name=env["platform"], git=env["git"])
     project = manifest.spec.project.model_dump()
     return Results(tool_version=__version__, run_id=identifier, created=build_time(), project=project,
                    settings=settings_record, inputs=tuple(inputs), environment=env, datasets=datasets,
@@ -194,21 +208,139 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
                    methods=methods_text())
 
 
-def _check_out_dir(out_dir: Path) -> None:
+def recorded_manifest(results_file: Path) -> Path | None:
+    """The manifest path (resolved at its run) that a results.json records, or None if unreadable."""
+    try:
+        document = json.loads(results_file.read_text(encoding="utf-8"))
+        return Path(next(entry["path"] for entry in document["inputs"] if entry["role"] == "manifest"))
+    except (OSError, ValueError, KeyError, TypeError, StopIteration):
+        return None
+
+
+def _check_out_dir(out_dir: Path, manifest_path: Path | None = None, *, force: bool = False) -> None:
+    """Refuse an output path that is a file, a folder of foreign files, or another manifest's dossier.
+
+    A folder whose results.json records a different manifest (by resolved path) is replaced only
+    with ``force``; foreign files are never replaced.
+    """
     if out_dir.exists() and not out_dir.is_dir():
         raise OutputError(f"the output path {out_dir} is a file", location=Location(out_dir),
                           hint="name a folder for the dossier")
     if out_dir.is_dir() and any(out_dir.iterdir()) and not (out_dir / RESULTS_FILE).is_file():
         raise OutputError(f"the output folder {out_dir} holds files that are not a reportgen dossier",
                           location=Location(out_dir), hint="choose an empty or new folder")
+    if manifest_path is None or force or not (out_dir / RESULTS_FILE).is_file():
+        return
+    wanted = Path(manifest_path).resolve()
+    recorded = recorded_manifest(out_dir / RESULTS_FILE)
+    if recorded is None:
+        raise OutputError(f"the output folder {out_dir} holds a results.json that reportgen cannot read",
+                          location=Location(out_dir / RESULTS_FILE),
+                          hint="choose another folder, or pass --force to replace it")
+    if recorded != wanted and recorded.resolve() != wanted:
+        raise OutputError(f"the output folder {out_dir} holds the dossier of {recorded}, not of {wanted}",
+                          location=Location(out_dir),
+                          hint="choose another folder, or pass --force to replace that dossier")
+
+
+def _owner_pid(folder_name: str, prefix: str) -> int | None:
+    """The process id written into a staging folder's name (``.NAME.partial-PID-XXXX``), if any."""
+    pid, separator, _ = folder_name[len(prefix):].partition("-")
+    return int(pid) if separator and pid.isdigit() else None
+
+
+def _process_exists(pid: int) -> bool:
+    """Whether a process with this id runs on this machine (when in doubt: yes)."""
+    if pid == os.getpid() or os.name != "posix":  # on Windows, os.kill(pid, 0) would send CTRL_C_EVENT
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:
+        return True
+    return True
+
+
+def remove_stale_staging(out_dir: Path, started: float) -> list[str]:
+    """Tidy the folders a killed run left beside ``out_dir``; one sentence per folder handled.
+
+    A staging folder ``.NAME.partial-PID-XXXX`` (or a retired ``.NAME.previous-PID-XXXX``) is
+    stale when it is older than ``started`` (the current run's start) and process PID no longer
+    exists. Stale staging folders are removed; a stale retired folder is put back as ``out_dir``
+    if ``out_dir`` is missing (a run killed between the two renames of the fallback swap), and
+    removed otherwise. Folders of live processes and folders without a process id are left alone.
+    """
+    messages: list[str] = []
+    if not out_dir.parent.is_dir():
+        return messages
+    for folder in sorted(out_dir.parent.iterdir()):
+        kind = next((kind for kind in ("partial", "previous") if folder.name.startswith(f".{out_dir.name}.{kind}-")),
+                    None)
+        if kind is None or folder.is_symlink() or not folder.is_dir():
+            continue
+        pid = _owner_pid(folder.name, f".{out_dir.name}.{kind}-")
+        if pid is None or _process_exists(pid):
+            continue
+        try:
+            if folder.stat().st_mtime >= started:
+                continue
+        except FileNotFoundError:
+            continue
+        if kind == "previous" and not out_dir.exists():
+            os.replace(folder, out_dir)
+            messages.append(f"restored {out_dir} from {folder.name}, left by process {pid}, which no longer runs")
+        else:
+            shutil.rmtree(folder, ignore_errors=True)
+            messages.append(f"removed {folder.name}, left by process {pid}, which no longer runs")
+    return messages
+
+
+def write_checksums(folder: Path, names: Sequence[str]) -> Path:
+    """Write ``folder/checksums.sha256`` (sha256sum format, sorted) listing the named files."""
+    digests = {name: sha256_bytes((folder / name).read_bytes()) for name in names}
+    target = folder / CHECKSUMS_FILE
+    target.write_text(checksums_text(digests), encoding="utf-8", newline="\n")
+    return target
+
+
+def _sync_folder(folder: Path) -> None:
+    """Flush the folder's files and the folder itself to disk, so a crash cannot leave empty files."""
+    for path in sorted(folder.iterdir()):
+        if path.is_file():
+            with path.open("rb") as stream:
+                os.fsync(stream.fileno())
+    _sync_directory(folder)
+
+
+def _sync_directory(folder: Path) -> None:
+    try:
+        descriptor = os.open(folder, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(descriptor)
+    except OSError:
+        pass
+    finally:
+        os.close(descriptor)
 
 
 def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[str], *, manifest: Manifest,
-                  template_dirs: Sequence[Path] = (), progress: Progress = _quiet) -> RunOutcome:
-    """Write results.json and the asked-for renderings into ``out_dir``, atomically."""
-    _check_out_dir(out_dir)
+                  template_dirs: Sequence[Path] = (), progress: Progress = _quiet, bundle: bool = False,
+                  force: bool = False, started: float | None = None) -> RunOutcome:
+    """Write results.json, the asked-for renderings, the bundle and checksums.sha256, atomically.
+
+    Everything is written into a staging folder ``.NAME.partial-PID-XXXX`` beside ``out_dir`` (PID
+    is this process) and swapped into place when complete; ``checksums.sha256`` is written last
+    and lists every other file. Stale staging folders of killed runs are tidied first (see
+    :func:`remove_stale_staging`); each one handled is reported through ``progress``.
+    """
+    _check_out_dir(out_dir, manifest.path, force=force)
     out_dir.parent.mkdir(parents=True, exist_ok=True)
-    staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-", dir=out_dir.parent))
+    for message in remove_stale_staging(out_dir, time.time() if started is None else started):
+        progress(message)
+    staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-{os.getpid()}-", dir=out_dir.parent))
     try:
         staging.chmod(_folder_mode())
         written = [RESULTS_FILE]
@@ -231,7 +363,17 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
                 render_pdf(html, staging / "dossier.pdf", base_dir=manifest.base_dir, created=document["created"],
                            attachments=(manifest.path, staging / RESULTS_FILE))
                 written.append("dossier.pdf")
+        if bundle:
+            from reportgen.bundle import write_bundle
+
+            progress("writing the archive bundle")
+            write_bundle(staging / BUNDLE_FILE, document, {name: staging / name for name in written}, manifest)
+            written.append(BUNDLE_FILE)
+        write_checksums(staging, written)
+        written.append(CHECKSUMS_FILE)
+        _sync_folder(staging)
         _swap_into_place(staging, out_dir)
+        _sync_directory(out_dir.parent)
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
@@ -245,10 +387,45 @@ def _folder_mode() -> int:
     return 0o777 & ~umask
 
 
+_AT_FDCWD = -100
+_RENAME_EXCHANGE = 2
+
+
+def _exchange(first: Path, second: Path) -> bool:
+    """Swap two paths in one atomic step (Linux ``renameat2`` with ``RENAME_EXCHANGE``).
+
+    Returns False where the exchange is not available (another system, an old C library, a file
+    system without it); raises OSError for any other failure.
+    """
+    if not sys.platform.startswith("linux"):
+        return False
+    try:
+        function = ctypes.CDLL(None, use_errno=True).renameat2
+    except (OSError, AttributeError):
+        return False
+    function.argtypes = [ctypes.c_int, ctypes.c_char_p, ctypes.c_int, ctypes.c_char_p, ctypes.c_uint]
+    function.restype = ctypes.c_int
+    if function(_AT_FDCWD, os.fsencode(first), _AT_FDCWD, os.fsencode(second), _RENAME_EXCHANGE) == 0:
+        return True
+    code = ctypes.get_errno()
+    if code in (errno.EINVAL, errno.ENOSYS, errno.EOPNOTSUPP, errno.ENOTSUP):
+        return False
+    raise OSError(code, os.strerror(code), str(second))
+
+
 def _swap_into_place(staging: Path, out_dir: Path) -> None:
-    """Replace ``out_dir`` by ``staging`` so that at every moment one complete dossier exists."""
+    """Replace ``out_dir`` by ``staging`` so that at every moment one complete dossier exists.
+
+    On Linux both folders are exchanged atomically and the old dossier, now at the staging path,
+    is removed. Elsewhere the old folder is renamed to ``.NAME.previous-PID-XXXX`` and the new one
+    moved in; should the run be killed between those two renames, the next run puts the previous
+    dossier back (see :func:`remove_stale_staging`).
+    """
     if out_dir.exists():
-        retired = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.previous-", dir=out_dir.parent))
+        if _exchange(staging, out_dir):
+            shutil.rmtree(staging, ignore_errors=True)
+            return
+        retired = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.previous-{os.getpid()}-", dir=out_dir.parent))
         retired.rmdir()
         os.replace(out_dir, retired)
         try:
@@ -263,12 +440,22 @@ def _swap_into_place(staging: Path, out_dir: Path) -> None:
 
 def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] = FORMATS, *,
         template_dirs: Sequence[Path] = (), command: Sequence[str] | None = None,
-        progress: Progress = _quiet) -> RunOutcome:
-    """Load, analyse and write a dossier; the one function the command line and notebooks call."""
+        progress: Progress = _quiet, bundle: bool = False, force: bool = False) -> RunOutcome:
+    """Load, analyse and write a dossier; the one function the command line and notebooks call.
+
+    ``bundle`` also writes ``bundle.zip`` (see :mod:`reportgen.bundle`); ``force`` replaces a
+    dossier of another manifest in ``out_dir``. The run id is recomputed from the results
+    document (:func:`reportgen.provenance.document_run_id`), so it always covers every input
+    hash, the table hashes, the settings, the software and the git state.
+    """
+    started = time.time()
     manifest = load_manifest(manifest_path)
     out = Path(out_dir)
-    _check_out_dir(out)
+    for message in remove_stale_staging(out, started):
+        progress(message)
+    _check_out_dir(out, manifest.path, force=force)
     results = analyse(manifest, command if command is not None else sys.argv, progress)
     document = results_to_dict(results)
+    document["run_id"] = document_run_id(document)
     return write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
-                         progress=progress)
+                         progress=progress, bundle=bundle, force=force, started=started)

@@ -208,7 +208,11 @@ def verdict_text(verdict: Any) -> str:
 
 
 def fit_heading(role: Any) -> str:
-    """The heading of a fitted equation by its role."""
+    """The heading of a fitted equation by its role.
+
+    A parenthetical detail of the role is kept: ``"long-run (dynamic OLS)"`` gives
+    ``Long-run relation (dynamic OLS)``.
+    """
     headings = {
         "levels": "Levels regression",
         "differences": "Re-estimated in differences",
@@ -217,7 +221,35 @@ def fit_heading(role: Any) -> str:
         "error-correction": "Error-correction model",
         "error_correction": "Error-correction model",
     }
-    return headings.get(str(role), str(role).replace("_", " ").capitalize())
+    text = str(role).strip()
+    base, separator, detail = text.partition(" (")
+    if base in headings:
+        return headings[base] + (f" ({detail}" if separator else "")
+    return text.replace("_", " ")[:1].upper() + text.replace("_", " ")[1:]
+
+
+def fmt_share(value: Any) -> str:
+    """A share between 0 and 1 as a percentage with one decimal: ``0.125`` gives ``12.5%``."""
+    if not _is_number(value):
+        return MISSING
+    return f"{float(value) * 100:.1f}%"
+
+
+_CRITERIA: dict[str, str] = {"aic": "AIC", "bic": "BIC", "hqic": "HQIC", "t-stat": "t-stat", "fixed": "fixed"}
+
+
+def fmt_criterion(criterion: Any) -> str:
+    """A lag-selection criterion as the trade writes it: ``aic`` gives ``AIC``."""
+    if criterion is None or criterion == "":
+        return MISSING
+    return _CRITERIA.get(str(criterion).lower(), str(criterion))
+
+
+def fmt_case(case: Any) -> str:
+    """The deterministic case of a Johansen or bounds test, by its number: ``3`` gives ``case 3``."""
+    if isinstance(case, bool) or not isinstance(case, int):
+        return MISSING if case is None else str(case)
+    return f"case {case}"
 
 
 def slugify(text: Any) -> str:
@@ -266,6 +298,9 @@ FILTERS: Mapping[str, Callable[..., str]] = {
     "verdict_short": verdict_short,
     "verdict_text": verdict_text,
     "fit_heading": fit_heading,
+    "fmt_share": fmt_share,
+    "fmt_criterion": fmt_criterion,
+    "fmt_case": fmt_case,
     "slugify": slugify,
     "humanise_key": humanise_key,
 }

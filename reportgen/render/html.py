@@ -1,14 +1,18 @@
 """The dossier as one self-contained HTML file: CSS and charts inlined, no external requests.
 
 :func:`render_html` builds one context from the results document (anchors, charts, the fits of
-each regression in display order) and hands it to the templates, which only display it.
+each regression in display order, and *views*: the document's tables arranged for display, with
+every optional field present) and hands it to the templates, which only display it. Arranging is
+grouping, ordering, de-duplicating footnotes and comparing a grid cell with the reported order;
+no statistic is computed here.
 """
 
 from __future__ import annotations
 
+import itertools
 import re
 import traceback
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
 
@@ -30,8 +34,53 @@ SECTION_IDS: Mapping[str, str] = {
     "cautions": "cautions",
 }
 
-#: Fits of a regression in the order they are shown, with the document key of each.
-FIT_KEYS: tuple[str, ...] = ("levels", "long_run", "differences", "error_correction")
+#: Fits of a regression in display rows, by document key: the levels fit beside its re-estimate in
+#: differences, then the long-run relation beside the error-correction model.
+FIT_ROWS: tuple[tuple[str, ...], ...] = (("levels", "differences"), ("long_run", "error_correction"))
+#: Fits of a regression in the order they are shown.
+FIT_KEYS: tuple[str, ...] = tuple(key for row in FIT_ROWS for key in row)
+
+#: Rows and columns of a robustness grid come in these orders; values not listed follow, in the
+#: order the document first gives them.
+GRID_TESTS: tuple[str, ...] = ("ADF", "PP", "DF-GLS", "KPSS", "ZA", "combined")
+GRID_DETERMINISTIC: tuple[str, ...] = ("none", "constant", "constant-trend")
+GRID_LAG_CRITERIA: tuple[str, ...] = ("aic", "bic", "hqic", "t-stat", "fixed")
+
+# Every field a template reads from a document table, with the value shown when it is absent, so
+# that a results file from an earlier battery (or a partial one) still renders.
+_TEST_FIELDS: Mapping[str, Any] = {
+    "test": "", "null_hypothesis": "", "level": None, "deterministic": None, "statistic": None,
+    "pvalue": None, "pvalue_bound": None, "critical_values": {}, "critical_values_source": "", "lags": None,
+    "lag_rule": "", "nobs": None, "sample_start": "", "sample_end": "", "rejects": None, "significance": None,
+    "notes": [], "pvalue_source": "", "bandwidth": None, "bandwidth_rule": "", "break_date": None,
+    "lag_criterion": None, "auxiliary": False,
+}
+_COINTEGRATION_FIELDS: Mapping[str, Any] = {
+    "method": "Engle-Granger", "dependent": "", "variables": [], "deterministic": None, "statistic": None,
+    "pvalue": None, "pvalue_bound": None, "critical_values": {}, "critical_values_source": "", "lags": None,
+    "lag_rule": "", "nobs": None, "rejects": None, "significance": None, "notes": [],
+}
+_RANK_FIELDS: Mapping[str, Any] = {"rank": None, "statistic": None, "critical_values": {}, "rejects": None}
+_JOHANSEN_FIELDS: Mapping[str, Any] = {
+    "variables": [], "case": None, "case_description": "", "lags": None, "lag_rule": "", "nobs": None,
+    "eigenvalues": [], "trace": [], "max_eigenvalue": [], "rank": None, "rank_rule": "",
+    "critical_values_source": "", "significance": None, "notes": [],
+}
+_BOUNDS_FIELDS: Mapping[str, Any] = {
+    "dependent": "", "regressors": [], "case": None, "case_description": "", "lags": {}, "lag_rule": "",
+    "nobs": None, "f_statistic": None, "critical_values": {}, "critical_values_source": "", "decision": None,
+    "significance": None, "notes": [],
+}
+_FIT_FIELDS: Mapping[str, Any] = {
+    "role": "", "equation": "", "dependent": "", "coefficients": [], "covariance": "", "nobs": None,
+    "r_squared": None, "adj_r_squared": None, "durbin_watson": None, "residual_std_error": None,
+    "sample_start": "", "sample_end": "", "diagnostics": [], "notes": [], "hac_kernel": "",
+    "hac_bandwidth": None, "hac_bandwidth_rule": "", "small_sample_correction": None,
+}
+_FAN_FIELDS: Mapping[str, Any] = {
+    "dates": [], "bands": {}, "drift": None, "innovation_std": None, "replications": None, "seed": None,
+    "share_outside": None, "description": "",
+}
 
 _UNSAFE_SVG = re.compile(r"<\s*(script|foreignobject|iframe|object|embed)\b|\son[a-z]+\s*=|javascript:", re.IGNORECASE)
 
@@ -55,14 +104,290 @@ def _stylesheet(environment: jinja2.Environment) -> Markup:
     return Markup(source)  # a stylesheet from the template folder, not document text
 
 
+def _complete(table: Any, fields: Mapping[str, Any]) -> dict[str, Any]:
+    """``table`` with every field of ``fields`` present (absent or ``None`` ones take the default)."""
+    given = table if isinstance(table, Mapping) else {}
+    complete = {key: given.get(key) if given.get(key) is not None else default for key, default in fields.items()}
+    complete.update({key: value for key, value in given.items() if key not in fields})
+    return complete
+
+
+def _mappings(items: Any) -> list[Mapping[str, Any]]:
+    """The mappings of a list from the document (anything else, or a missing list, gives none)."""
+    if not isinstance(items, (list, tuple)):
+        return []
+    return [item for item in items if isinstance(item, Mapping)]
+
+
+def _ordered(values: Iterable[Any], preferred: Sequence[str]) -> list[str]:
+    """Distinct ``values`` as text: those in ``preferred`` in its order, then the rest as first met."""
+    seen = list(dict.fromkeys(str(value) for value in values if value is not None))
+    return [value for value in preferred if value in seen] + [value for value in seen if value not in preferred]
+
+
+def _levels_present(tables: Iterable[Mapping[str, Any]]) -> list[str]:
+    """The critical-value levels of several tests, in the order the document first gives them."""
+    levels: dict[str, None] = {}
+    for table in tables:
+        values = table.get("critical_values")
+        if isinstance(values, Mapping):
+            levels.update(dict.fromkeys(str(key) for key in values))
+    return list(levels)
+
+
+def footnote_label(index: int) -> str:
+    """The label of the ``index``-th footnote of a table: ``a`` ... ``z``, then ``aa``, ``ab`` ..."""
+    letters = "abcdefghijklmnopqrstuvwxyz"
+    label = ""
+    index += 1
+    while index > 0:
+        index, remainder = divmod(index - 1, len(letters))
+        label = letters[remainder] + label
+    return label
+
+
+class Footnotes:
+    """The footnotes of one table: each distinct text once, lettered in the order first marked."""
+
+    def __init__(self) -> None:
+        self.items: list[dict[str, str]] = []
+        self._labels: dict[tuple[str, str], str] = {}
+
+    def mark(self, kind: str, text: Any) -> str | None:
+        """The label of the footnote ``kind: text`` (added if new); ``None`` for empty text."""
+        if not isinstance(text, str) or not text.strip():
+            return None
+        key = (kind, text.strip())
+        if key not in self._labels:
+            label = footnote_label(len(self.items))
+            self._labels[key] = label
+            self.items.append({"label": label, "kind": kind, "text": key[1]})
+        return self._labels[key]
+
+
+def _as_level(level: Any) -> Any:
+    """A differencing level as written in the document (an int in tests, a string as a mapping key)."""
+    try:
+        return int(level)
+    except (TypeError, ValueError):
+        return level
+
+
+def _sample_text(start: Any, end: Any) -> str:
+    """``start to end`` for a footnote, or empty text when neither is known."""
+    if not start and not end:
+        return ""
+    return f"{start or '?'} to {end or '?'}"
+
+
+def battery_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
+    """The battery of one series as display groups: consecutive tests at one level, in run order.
+
+    Every rule and source text becomes a lettered footnote (each distinct text once), so the
+    table stays narrow however many tests share a rule.
+    """
+    tests = [_complete(test, _TEST_FIELDS) for test in _mappings(series.get("tests"))]
+    if not tests:
+        return None
+    chosen = series.get("deterministic") if isinstance(series.get("deterministic"), Mapping) else {}
+    chosen_by_level = {_as_level(key): value for key, value in chosen.items()}
+    footnotes = Footnotes()
+    groups: list[dict[str, Any]] = []
+    for level, members in itertools.groupby(tests, key=lambda test: _as_level(test["level"])):
+        rows = []
+        for test in members:
+            notes = [footnotes.mark("Note", note) for note in test["notes"] if isinstance(note, str)]
+            rows.append({
+                "test": test,
+                "pvalue_mark": footnotes.mark("p-value", test["pvalue_source"]),
+                "critical_mark": footnotes.mark("Critical values", test["critical_values_source"]),
+                "lag_mark": footnotes.mark("Lags", test["lag_rule"]),
+                "bandwidth_mark": footnotes.mark("Bandwidth", test["bandwidth_rule"]),
+                "sample_mark": footnotes.mark("Sample", _sample_text(test["sample_start"], test["sample_end"])),
+                "note_marks": [label for label in notes if label is not None],
+            })
+        groups.append({"level": level, "deterministic": chosen_by_level.get(level), "rows": rows})
+    levels = [level for level in ("1%", "5%", "10%") if level in _levels_present(tests)] or ["1%", "5%", "10%"]
+    has_bandwidth = any(test["bandwidth"] is not None for test in tests)
+    has_breaks = any(test["break_date"] for test in tests)
+    return {
+        "groups": groups,
+        "footnotes": footnotes.items,
+        "levels": levels,
+        # Test, terms, statistic, p-value, critical values, lags, [bandwidth], [break], obs., decision.
+        "columns": 7 + len(levels) + int(has_bandwidth) + int(has_breaks),
+        "has_bandwidth": has_bandwidth,
+        "has_breaks": has_breaks,
+        "has_auxiliary": any(test["auxiliary"] is True for test in tests),
+        "significance": next((test["significance"] for test in tests if test["significance"] is not None), None),
+    }
+
+
+def grid_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
+    """A series' robustness grid as rows (tests) by columns (deterministic terms x lag criterion).
+
+    A cell is marked ``differs`` when the order it shows is not the series' reported order; a
+    combination the grid does not hold is shown as not run.
+    """
+    cells = _mappings(series.get("grid"))
+    if not cells:
+        return None
+    tests = _ordered((cell.get("test") for cell in cells), GRID_TESTS)
+    terms = _ordered((cell.get("deterministic") for cell in cells), GRID_DETERMINISTIC)
+    criteria = _ordered((cell.get("lag_criterion") for cell in cells), GRID_LAG_CRITERIA)
+    lookup: dict[tuple[str, str, str], Mapping[str, Any]] = {}
+    for cell in cells:
+        key = (str(cell.get("test")), str(cell.get("deterministic")), str(cell.get("lag_criterion")))
+        lookup.setdefault(key, cell)
+    reported = series.get("order")
+    rows = []
+    for test in tests:
+        row_cells = []
+        for term in terms:
+            for criterion in criteria:
+                cell = lookup.get((test, term, criterion))
+                order = cell.get("order") if cell is not None else None
+                row_cells.append({
+                    "present": cell is not None,
+                    "order": order,
+                    "differs": cell is not None and order != reported,
+                    "deterministic": term,
+                    "lag_criterion": criterion,
+                })
+        rows.append({"test": test, "combined": test == "combined", "cells": row_cells})
+    return {
+        "terms": terms,
+        "criteria": criteria,
+        "rows": rows,
+        "reported": reported,
+        "any_differs": any(cell["differs"] for row in rows for cell in row["cells"]),
+        "any_missing": any(not cell["present"] for row in rows for cell in row["cells"]),
+    }
+
+
+def fan_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
+    """The facts of a series' fan chart shown under the chart, or ``None`` without one."""
+    fan = series.get("fan_chart")
+    if not isinstance(fan, Mapping):
+        return None
+    return _complete(fan, _FAN_FIELDS)
+
+
+def series_view(series: Mapping[str, Any]) -> dict[str, Any]:
+    """Everything the series partial shows beyond the document's plain fields."""
+    return {
+        "tests": battery_view(series),
+        "grid": grid_view(series),
+        "fan": fan_view(series),
+        "fragile": series.get("fragile") is True,
+        "fragile_reason": series.get("fragile_reason") or None,
+    }
+
+
+def _fit_rows(regression: Mapping[str, Any]) -> list[list[dict[str, Any]]]:
+    """The fits of one regression that exist, in display rows (see :data:`FIT_ROWS`)."""
+    rows = []
+    for keys in FIT_ROWS:
+        row = [_complete(regression[key], _FIT_FIELDS) for key in keys if isinstance(regression.get(key), Mapping)]
+        if row:
+            rows.append(row)
+    return rows
+
+
 def _fit_panels(regression: Mapping[str, Any]) -> list[Mapping[str, Any]]:
     """The fits of one regression that exist, in display order (levels first)."""
-    return [regression[key] for key in FIT_KEYS if regression.get(key)]
+    return [fit for row in _fit_rows(regression) for fit in row]
+
+
+def engle_granger_view(regression: Mapping[str, Any]) -> dict[str, Any] | None:
+    """Engle-Granger under every normalisation, the manifest's (its dependent on the left) first.
+
+    A document with only the single ``cointegration`` test shows that one row. Lag rules,
+    critical-value sources and notes become lettered footnotes, each distinct text once.
+    """
+    tests = _mappings(regression.get("engle_granger"))
+    if not tests and isinstance(regression.get("cointegration"), Mapping):
+        tests = [regression["cointegration"]]
+    if not tests:
+        return None
+    dependent = regression.get("dependent")
+    completed = [_complete(test, _COINTEGRATION_FIELDS) for test in tests]
+    completed.sort(key=lambda test: test["dependent"] != dependent)  # stable: the document's order otherwise
+    footnotes = Footnotes()
+    rows = []
+    for test in completed:
+        notes = [footnotes.mark("Note", note) for note in test["notes"] if isinstance(note, str)]
+        rows.append({
+            "test": test,
+            "manifest": test["dependent"] == dependent,
+            "critical_mark": footnotes.mark("Critical values", test["critical_values_source"]),
+            "lag_mark": footnotes.mark("Lags", test["lag_rule"]),
+            "note_marks": [label for label in notes if label is not None],
+        })
+    return {
+        "rows": rows,
+        "footnotes": footnotes.items,
+        "levels": _levels_present(completed) or ["1%", "5%", "10%"],
+        "variables": next((test["variables"] for test in completed if test["variables"]), []),
+        "method": completed[0]["method"],
+        "significance": next((test["significance"] for test in completed if test["significance"] is not None),
+                             None),
+    }
+
+
+def johansen_view(regression: Mapping[str, Any]) -> dict[str, Any] | None:
+    """Johansen's trace and maximum-eigenvalue sequences side by side, one row per null rank."""
+    if not isinstance(regression.get("johansen"), Mapping):
+        return None
+    johansen = _complete(regression["johansen"], _JOHANSEN_FIELDS)
+    trace = {test.get("rank"): _complete(test, _RANK_FIELDS) for test in _mappings(johansen["trace"])}
+    maximum = {test.get("rank"): _complete(test, _RANK_FIELDS) for test in _mappings(johansen["max_eigenvalue"])}
+    ranks = list(dict.fromkeys([*trace, *maximum]))
+    rows = [{"rank": rank, "trace": trace.get(rank), "max_eigenvalue": maximum.get(rank),
+             "chosen": rank is not None and rank == johansen["rank"]} for rank in ranks]
+    return dict(johansen, rows=rows, levels=_levels_present([*trace.values(), *maximum.values()]),
+                any_chosen=any(row["chosen"] for row in rows))
+
+
+def bounds_view(regression: Mapping[str, Any]) -> dict[str, Any] | None:
+    """The bounds test with its critical values as rows (level, lower bound, upper bound)."""
+    if not isinstance(regression.get("bounds_test"), Mapping):
+        return None
+    bounds = _complete(regression["bounds_test"], _BOUNDS_FIELDS)
+    rows = []
+    values = bounds["critical_values"] if isinstance(bounds["critical_values"], Mapping) else {}
+    for level, pair in values.items():
+        pair = list(pair) if isinstance(pair, (list, tuple)) else []
+        rows.append({"level": str(level), "lower": pair[0] if pair else None,
+                     "upper": pair[1] if len(pair) > 1 else None})
+    lags = bounds["lags"] if isinstance(bounds["lags"], Mapping) else {}
+    return dict(bounds, rows=rows, lag_list=list(lags.items()))
+
+
+def regression_view(regression: Mapping[str, Any]) -> dict[str, Any]:
+    """Everything the regression partial shows beyond the document's plain fields."""
+    return {
+        "fit_rows": _fit_rows(regression),
+        "engle_granger": engle_granger_view(regression),
+        "johansen": johansen_view(regression),
+        "bounds": bounds_view(regression),
+        "fragile": regression.get("fragile") is True,
+        "fragile_reason": regression.get("fragile_reason") or None,
+    }
 
 
 def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
                     environment: jinja2.Environment) -> dict[str, Any]:
-    """Everything the templates see: the document itself plus display helpers (no statistics)."""
+    """Everything the templates see: the document itself plus display helpers (no statistics).
+
+    ``document``, ``project``, ``methods``: the results document and two of its parts.
+    ``ids``: page anchors (:data:`SECTION_IDS`, plus ``ids.series[name]`` and ``ids.regressions[name]``).
+    ``charts``: inline SVGs by key (``series:``, ``fan:``, ``regression:`` plus the name).
+    ``fit_panels[name]``: the fits of a regression in display order.
+    ``series_views[name]``: :func:`series_view` (battery table, robustness grid, fan-chart facts, fragility).
+    ``regression_views[name]``: :func:`regression_view` (fit rows, Engle-Granger, Johansen, bounds test,
+    fragility). ``css``: the stylesheet.
+    """
     series: Mapping[str, Any] = document.get("series") or {}
     regressions: Mapping[str, Any] = document.get("regressions") or {}
     taken = set(SECTION_IDS.values())
@@ -76,6 +401,8 @@ def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
         "ids": ids,
         "charts": {key: _chart_markup(key, svg) for key, svg in plots.items()},
         "fit_panels": {name: _fit_panels(body) for name, body in regressions.items()},
+        "series_views": {name: series_view(body) for name, body in series.items()},
+        "regression_views": {name: regression_view(body) for name, body in regressions.items()},
         "css": _stylesheet(environment),
     }
 
@@ -98,7 +425,7 @@ def render_html(document: Mapping[str, Any], plots: Mapping[str, str], template_
     document
         ``results_to_dict(results)``: the same content as results.json.
     plots
-        Inline SVG charts keyed ``"series:<name>"`` and ``"regression:<name>"``, as returned by
+        Inline SVG charts keyed ``"series:<name>"``, ``"fan:<name>"`` and ``"regression:<name>"``, as returned by
         :func:`reportgen.render.plots.render_plots`; a missing chart is simply not shown.
     template_dirs
         Folders searched before the packaged templates (any template or ``style.css`` there

@@ -1,7 +1,8 @@
 """Charts of the dossier as inline SVG, drawn with matplotlib's object API (never pyplot).
 
 Every chart is drawn from values already in the results document; the only arithmetic is the
-first difference of the plotted series for its lower panel, which is display. The SVG bytes are
+first difference of the plotted series for its lower panel, which is display. A fan chart shades
+the quantile bands of simulated random walks that the statistics stage computed and stored. The SVG bytes are
 deterministic (fixed hash salt, no date, text kept as text) and every ``id`` inside a chart is
 prefixed with the chart's own name, so many charts can be inlined in one page without clashes.
 """
@@ -37,6 +38,17 @@ _SERIES_COLOUR = "#1b4965"
 _CHANGE_COLOUR = "#a44a1d"
 _RESIDUAL_COLOURS = ("#3d405b", "#7a4e9c")
 _REFERENCE_COLOUR = "#8d99ae"
+# Fan charts: the observed path in copper over two tints of ink blue and a dashed median.
+_FAN_OUTER = "#d6e2ec"
+_FAN_INNER = "#9dbad0"
+_FAN_MEDIAN = "#1b4965"
+_FAN_OBSERVED = "#a44a1d"
+#: Quantile labels of a fan chart's bands: outer pair, inner pair, median.
+FAN_BANDS: tuple[str, ...] = ("5%", "25%", "50%", "75%", "95%")
+#: Extra room above a fan chart's panel for its legend (a row between the title and the panel), in inches.
+_FAN_LEGEND_ROOM = 0.2
+#: Space between a fan chart's title and its panel, in points (room for the legend row).
+_FAN_TITLE_PAD = 17.0
 
 _RC: dict[str, Any] = {
     "svg.hashsalt": HASH_SALT,
@@ -140,28 +152,33 @@ class _ChartWriter:
     """
 
     def __init__(self) -> None:
-        self._layouts: dict[int, tuple[Figure, list[Any]]] = {}
+        self._layouts: dict[tuple[int, float], tuple[Figure, list[Any]]] = {}
         self.figure: Figure | None = None
 
-    def _layout(self, count: int) -> tuple[Figure, list[Any]]:
-        if count not in self._layouts:
-            height = PANEL_HEIGHT * count + 0.35
+    def _layout(self, count: int, room: float = 0.0) -> tuple[Figure, list[Any]]:
+        """The figure of ``count`` stacked panels, with ``room`` inches more above the first."""
+        key = (count, room)
+        if key not in self._layouts:
+            height = PANEL_HEIGHT * count + 0.35 + room
             figure = Figure(figsize=(WIDTH, height), dpi=72)
             FigureCanvasSVG(figure)
             axes = list(figure.subplots(count, 1, sharex=True, squeeze=False)[:, 0])
-            figure.subplots_adjust(left=0.09, right=0.955, top=1 - 0.3 / (PANEL_HEIGHT * count),
+            figure.subplots_adjust(left=0.09, right=0.955, top=1 - (0.3 + room) / height,
                                    bottom=0.42 / height, hspace=0.38)
             for item in axes:
                 item.grid(axis="y", color="#e3e6ea", linewidth=0.5)
                 item.set_axisbelow(True)
-            self._layouts[count] = (figure, axes)
-        return self._layouts[count]
+            self._layouts[key] = (figure, axes)
+        return self._layouts[key]
 
-    def _panels(self, count: int) -> list[Any]:
-        figure, axes = self._layout(count)
+    def _panels(self, count: int, room: float = 0.0) -> list[Any]:
+        figure, axes = self._layout(count, room)
         for item in axes:
             for artist in [*item.lines, *item.texts, *item.collections, *item.patches]:
                 artist.remove()
+            legend = item.get_legend()
+            if legend is not None:
+                legend.remove()
             item.set_title("")
             item.xaxis.set_major_locator(AutoLocator())
             item.xaxis.set_major_formatter(ScalarFormatter())
@@ -194,6 +211,48 @@ class _ChartWriter:
                 _empty_panel(lower, "a single observation has no difference")
             _period_axis(lower, dates)
         return self._svg(f"Chart of series {name}: levels and first differences")
+
+    def fan_chart(self, name: str, body: Mapping[str, Any]) -> str | None:
+        """The observed series over the 5-95% and 25-75% bands and the median of simulated random walks.
+
+        The bands are the ones stored in ``body["fan_chart"]``; nothing is simulated here. A
+        fan chart without dates or without any band has no chart.
+        """
+        fan = body.get("fan_chart")
+        if not isinstance(fan, Mapping):
+            return None
+        fan_dates = [str(date) for date in fan.get("dates") or ()]
+        raw_bands = fan.get("bands")
+        bands = raw_bands if isinstance(raw_bands, Mapping) else {}
+        paths = {label: _numbers(bands[label]) for label in FAN_BANDS
+                 if isinstance(bands.get(label), (list, tuple)) and len(bands[label]) == len(fan_dates)}
+        if not fan_dates or not paths:
+            return None
+        data = body.get("data") or {}
+        observed_dates = [str(date) for date in data.get("dates") or ()]
+        observed = _numbers(data.get("values") or ())
+        if len(observed) != len(observed_dates):
+            observed_dates, observed = [], []
+        axis_dates = _merged_dates(fan_dates, observed_dates)
+        fan_positions = _positions(fan_dates, axis_dates)
+        (item,) = self._panels(1, _FAN_LEGEND_ROOM)
+        item.set_title("Observed path against simulated random walks", pad=_FAN_TITLE_PAD)
+        if "5%" in paths and "95%" in paths:
+            item.fill_between(fan_positions, paths["5%"], paths["95%"], color=_FAN_OUTER, linewidth=0,
+                              label="5–95% band")
+        if "25%" in paths and "75%" in paths:
+            item.fill_between(fan_positions, paths["25%"], paths["75%"], color=_FAN_INNER, linewidth=0,
+                              label="25–75% band")
+        if "50%" in paths:
+            item.plot(fan_positions, paths["50%"], color=_FAN_MEDIAN, linewidth=0.9, linestyle=(0, (4, 2)),
+                      label="median path")
+        if observed:
+            item.plot(_positions(observed_dates, axis_dates), observed, color=_FAN_OBSERVED, linewidth=1.2,
+                      label="observed")
+        item.legend(loc="lower left", bbox_to_anchor=(0.0, 1.0), ncols=4, frameon=False, fontsize=6.8,
+                    borderaxespad=0.15, borderpad=0.0, handlelength=1.8, columnspacing=1.4)
+        _period_axis(item, axis_dates)
+        return self._svg(f"Fan chart of series {name}: observed path against bands of simulated random walks")
 
     def regression_chart(self, name: str, body: Mapping[str, Any]) -> str | None:
         """Residuals of the levels fit and of the differences or error-correction fit."""
@@ -294,13 +353,16 @@ def prefix_svg_ids(svg: str, prefix: str) -> str:
 def render_plots(document: Mapping[str, Any]) -> dict[str, str]:
     """Every chart of the dossier as an inline SVG string.
 
-    Keys are ``"series:<name>"`` (the series as analysed above its first difference) and
-    ``"regression:<name>"`` (residuals of the levels fit above those of the differences or
-    error-correction fit). A regression without any residuals has no chart.
+    Keys are ``"series:<name>"`` (the series as analysed above its first difference),
+    ``"fan:<name>"`` (the series over the bands of simulated random walks, for a series whose
+    document entry has a ``fan_chart``) and ``"regression:<name>"`` (residuals of the levels fit
+    above those of the differences or error-correction fit). A regression without any residuals
+    has no chart.
     """
     series: Mapping[str, Any] = document.get("series") or {}
     regressions: Mapping[str, Any] = document.get("regressions") or {}
-    keys = [f"series:{name}" for name in series] + [f"regression:{name}" for name in regressions]
+    keys = [f"{kind}:{name}" for name in series for kind in ("series", "fan")]
+    keys += [f"regression:{name}" for name in regressions]
     prefixes = unique_ids(keys, "fig")
     charts: dict[str, str] = {}
     with matplotlib.rc_context(cast(Any, _RC)):
@@ -308,6 +370,9 @@ def render_plots(document: Mapping[str, Any]) -> dict[str, str]:
         for name, body in series.items():
             key = f"series:{name}"
             charts[key] = prefix_svg_ids(writer.series_chart(name, body), prefixes[key])
+            fan = writer.fan_chart(name, body)
+            if fan is not None:
+                charts[f"fan:{name}"] = prefix_svg_ids(fan, prefixes[f"fan:{name}"])
         for name, body in regressions.items():
             key = f"regression:{name}"
             chart = writer.regression_chart(name, body)

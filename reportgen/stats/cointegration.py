@@ -5,7 +5,8 @@ relation by OLS; step 2 runs an augmented Dickey-Fuller regression, without dete
 the step-1 residuals. The statistic is judged against MacKinnon's (2010) response-surface critical
 values for the number of integrated variables in the relation, evaluated at the number of
 observations of the residual ADF regression, and given a p-value from MacKinnon's (1994) asymptotic
-surface.
+surface. :func:`engle_granger_all` runs the test under every normalisation (each variable on the
+left in turn), since its result depends on that choice.
 
 The critical-value coefficients are reportgen's own copy of MacKinnon (2010). They were taken from
 statsmodels' ``tsa/adfvalues.py`` (``tau_c_2010``, ``tau_ct_2010``) and then corrected in the five
@@ -35,6 +36,7 @@ __all__ = [
     "ENGLE_GRANGER_MIN_EXTRA_OBSERVATIONS",
     "ENGLE_GRANGER_PVALUE_SOURCE",
     "engle_granger",
+    "engle_granger_all",
     "engle_granger_critical_values",
     "engle_granger_pvalue",
     "schwert_max_lags",
@@ -514,4 +516,86 @@ def engle_granger(
         rejects=bool(rejects),
         significance=float(significance),
         notes=tuple(notes),
+    )
+
+
+def engle_granger_all(
+    data: pd.DataFrame,
+    variables: Sequence[str],
+    *,
+    significance: float,
+    lag_criterion: str = "aic",
+    deterministic: Deterministic = "constant",
+    max_lags: int | None = None,
+    lags: int | None = None,
+) -> tuple[CointegrationTest, ...]:
+    """Engle-Granger tests of one relation under every normalisation.
+
+    Each variable in turn is put on the left of the cointegrating regression, with the others, in
+    the order given, on the right; each test is :func:`engle_granger` with the same settings.
+
+    Parameters
+    ----------
+    data : pandas.DataFrame
+        Float columns named by series, indexed by a ``PeriodIndex``, aligned, no missing values.
+    variables : sequence of str
+        The integrated variables of the relation, at least two, each once.
+    significance : float
+        Significance level, one of 0.01, 0.05, 0.10.
+    lag_criterion : {"aic", "bic", "t-stat"}
+        How the lagged differences of each residual ADF regression are chosen.
+    deterministic : {"constant", "constant-trend"}
+        Deterministic terms of the cointegrating regressions.
+    max_lags : int, optional
+        Largest number of lagged differences searched (Schwert's rule by default).
+    lags : int, optional
+        Fix the number of lagged differences instead of searching.
+
+    Returns
+    -------
+    tuple of CointegrationTest
+        One test per variable, in the order of ``variables``; ``dependent`` names the variable on
+        the left. Every test uses MacKinnon's (2010) critical values for N = ``len(variables)``.
+
+    Raises
+    ------
+    DataError
+        When a variable appears twice, a column is missing or not finite, or the variables are
+        perfectly collinear.
+    InsufficientDataError
+        When the sample is too short for the test (see :func:`engle_granger`).
+
+    Notes
+    -----
+    The residual-based test is not invariant to the normalisation: in finite samples the
+    statistics, and sometimes the decisions, differ with the variable on the left. Reporting every
+    normalisation shows whether the conclusion depends on that choice.
+
+    References
+    ----------
+    Engle, R. F. and Granger, C. W. J. (1987). Co-integration and Error Correction:
+    Representation, Estimation, and Testing. Econometrica, 55(2), 251-276.
+
+    MacKinnon, J. G. (2010). Critical Values for Cointegration Tests. Queen's Economics
+    Department Working Paper No. 1227.
+    """
+    variables = tuple(variables)
+    if len(variables) < 2:
+        raise ValueError(
+            f"the Engle-Granger test needs at least two variables, not {len(variables)}"
+        )
+    if len(set(variables)) != len(variables):
+        raise DataError(f"Engle-Granger test: a variable appears twice in {', '.join(variables)}")
+    return tuple(
+        engle_granger(
+            data,
+            dependent,
+            [name for name in variables if name != dependent],
+            significance=significance,
+            lag_criterion=lag_criterion,
+            deterministic=deterministic,
+            max_lags=max_lags,
+            lags=lags,
+        )
+        for dependent in variables
     )

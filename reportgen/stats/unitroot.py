@@ -1,10 +1,20 @@
-"""Unit-root (ADF) and stationarity (KPSS) tests, each returning a frozen :class:`TestResult`.
+"""Unit-root and stationarity tests, each returning a frozen :class:`TestResult`.
 
-The statistics come from statsmodels (``adfuller`` and ``kpss``); this module pins the choices
-statsmodels leaves open or makes differently from reportgen, and reports them in the result:
+ADF and KPSS come from statsmodels (``adfuller`` and ``kpss``); Phillips-Perron, DF-GLS and
+Zivot-Andrews are computed here from least-squares regressions (statsmodels' ``adfuller`` runs the
+DF-GLS regression and the Zivot-Andrews lag search; the DF-GLS lag search applies ``adfuller``'s
+rule in one QR decomposition). This module pins the choices the libraries leave open or make differently from
+reportgen, and reports them in the result:
 
-* the ADF maximum lag follows Schwert (1989) rounded *down*, ``int(12 (T/100)^(1/4))``
+* the maximum lag follows Schwert (1989) rounded *down*, ``int(12 (T/100)^(1/4))``
   (statsmodels and arch round up), reduced when the regression would otherwise be infeasible;
+* the Phillips-Perron bandwidth is Newey and West's (1994) automatic choice for the Bartlett
+  kernel (:func:`newey_west_bandwidth`), computed scale-free;
+* DF-GLS critical values are Elliott, Rothenberg and Stock's (1996) Table I with constant and
+  trend and the Dickey-Fuller distribution without deterministic terms with constant; its p-value
+  is interpolated between the critical values, and decisions use the critical values;
+* the Zivot-Andrews break date is the last period before the break (``T_B`` of Zivot and Andrews
+  1992); its critical values are the paper's, its p-value statsmodels' simulated distribution;
 * p-values that lie beyond the range of the table or response surface they come from are reported
   as bounds (``pvalue_bound`` ``"<"`` or ``">"``), never as exact values;
 * library warnings are captured into ``notes`` instead of being printed.
@@ -29,6 +39,7 @@ from statsmodels.regression.linear_model import OLS
 from statsmodels.tsa.adfvalues import _tau_maxs, _tau_mins, mackinnoncrit, mackinnonp
 from statsmodels.tsa.stattools import adfuller
 from statsmodels.tsa.stattools import kpss as statsmodels_kpss
+from statsmodels.tsa.stattools import zivot_andrews as _statsmodels_zivot_andrews
 
 from reportgen.errors import DataError, InsufficientDataError
 from reportgen.periods import period_label
@@ -37,12 +48,19 @@ from reportgen.vocabulary import Deterministic
 
 __all__ = [
     "ADF_CRITERIA",
+    "DFGLS_CBAR",
     "TERMS_TEXT",
+    "ZA_MODEL_TEXT",
     "adf",
     "adf_feasible_max_lags",
     "adf_trend_t_statistic",
+    "dfgls",
+    "dfgls_trend_critical_values",
     "kpss",
+    "newey_west_bandwidth",
+    "phillips_perron",
     "schwert_max_lags",
+    "zivot_andrews",
 ]
 
 #: statsmodels' code for each deterministic specification.
@@ -60,6 +78,36 @@ TERMS_TEXT: Final[dict[str, str]] = {
 ADF_CRITERIA: Final[dict[str, str]] = {"aic": "AIC", "bic": "BIC", "t-stat": "t-stat", "fixed": "fixed"}
 #: Significance levels of KPSS (1992) Table 1, keyed by the table's column labels.
 _KPSS_LEVELS: Final[dict[float, str]] = {0.10: "10%", 0.05: "5%", 0.025: "2.5%", 0.01: "1%"}
+#: Significance levels of the three-column tables (DF-GLS, Zivot-Andrews), keyed by column label.
+_TABLE_LEVELS: Final[dict[float, str]] = {0.01: "1%", 0.05: "5%", 0.10: "10%"}
+_MACKINNON_PVALUE_SOURCE: Final[str] = "MacKinnon (1994) response surface; a bound beyond its range"
+
+#: Elliott, Rothenberg and Stock (1996), Table I, DF-GLS with constant and trend (1%, 5%, 10%), by
+#: sample size; ``math.inf`` is the asymptotic row. Transcribed from memory (REFERENCES.md section 6).
+_ERS_TREND_TABLE: Final[dict[float, tuple[float, float, float]]] = {
+    50.0: (-3.77, -3.19, -2.89),
+    100.0: (-3.58, -3.03, -2.74),
+    200.0: (-3.46, -2.93, -2.64),
+    math.inf: (-3.48, -2.89, -2.57),
+}
+#: Local-to-unity parameter c-bar of the GLS quasi-differences (Elliott, Rothenberg and Stock 1996).
+DFGLS_CBAR: Final[dict[str, float]] = {"constant": -7.0, "constant-trend": -13.5}
+#: Zivot and Andrews (1992), asymptotic critical values for trim 0.15, from memory
+#: (REFERENCES.md section 6): model A (break in the intercept) and model C (intercept and trend).
+_ZA_1992: Final[dict[str, dict[str, float]]] = {
+    "constant": {"1%": -5.34, "5%": -4.80, "10%": -4.58},
+    "constant-trend": {"1%": -5.57, "5%": -5.08, "10%": -4.82},
+}
+#: How the two Zivot-Andrews models are named in messages and sources.
+ZA_MODEL_TEXT: Final[dict[str, str]] = {
+    "constant": "with a break in the intercept (model A)",
+    "constant-trend": "with breaks in the intercept and the trend (model C)",
+}
+#: statsmodels' code for each Zivot-Andrews model (its table of simulated quantiles is keyed by it).
+_ZA_REGRESSION: Final[dict[str, str]] = {"constant": "c", "constant-trend": "ct"}
+#: Columns of the Zivot-Andrews regression besides the lagged differences: constant, trend,
+#: intercept dummy, (trend dummy,) lagged level.
+_ZA_COLUMNS: Final[dict[str, int]] = {"constant": 4, "constant-trend": 5}
 
 
 def schwert_max_lags(nobs: int) -> int:
@@ -132,6 +180,29 @@ def _warning_notes(caught: Sequence[warnings.WarningMessage]) -> tuple[str, ...]
         if text not in notes:
             notes.append(text)
     return tuple(notes)
+
+
+def _mackinnon_pvalue(statistic: float, regression: str) -> tuple[float, str | None, str | None]:
+    """MacKinnon's (1994) p-value of a Dickey-Fuller t-statistic, a bound beyond the surface's range.
+
+    Returns the p-value, the bound (``"<"``, ``">"`` or ``None``) and a note for the result when the
+    value is a bound.
+    """
+    tau_min = float(_tau_mins[regression][0])
+    tau_max = float(_tau_maxs[regression][0])
+    if statistic < tau_min:
+        pvalue = float(mackinnonp(tau_min, regression=regression, N=1))
+        return pvalue, "<", (
+            f"statistic {statistic:.4g} lies below the range of the MacKinnon (1994) p-value surface "
+            f"(which ends at {tau_min:g}); the p-value is smaller than {pvalue:.3g}, its value there"
+        )
+    if statistic > tau_max:
+        pvalue = float(mackinnonp(tau_max, regression=regression, N=1))
+        return pvalue, ">", (
+            f"statistic {statistic:.4g} lies above the range of the MacKinnon (1994) p-value surface "
+            f"(which ends at {tau_max:g}); the p-value is larger than {pvalue:.3g}, its value there"
+        )
+    return float(mackinnonp(statistic, regression=regression, N=1)), None, None
 
 
 def _significance_key(significance: float) -> str:
@@ -268,25 +339,9 @@ def adf(
     critical_values = {"1%": float(critical[0]), "5%": float(critical[1]), "10%": float(critical[2])}
     surface = "MacKinnon (1996)" if regression == "n" else "MacKinnon (2010)"
 
-    tau_min = float(_tau_mins[regression][0])
-    tau_max = float(_tau_maxs[regression][0])
-    bound: str | None = None
-    if statistic < tau_min:
-        bound = "<"
-        pvalue = float(mackinnonp(tau_min, regression=regression, N=1))
-        notes.append(
-            f"statistic {statistic:.4g} lies below the range of the MacKinnon (1994) p-value surface "
-            f"(which ends at {tau_min:g}); the p-value is smaller than {pvalue:.3g}, its value there"
-        )
-    elif statistic > tau_max:
-        bound = ">"
-        pvalue = float(mackinnonp(tau_max, regression=regression, N=1))
-        notes.append(
-            f"statistic {statistic:.4g} lies above the range of the MacKinnon (1994) p-value surface "
-            f"(which ends at {tau_max:g}); the p-value is larger than {pvalue:.3g}, its value there"
-        )
-    else:
-        pvalue = float(mackinnonp(statistic, regression=regression, N=1))
+    pvalue, bound, note = _mackinnon_pvalue(statistic, regression)
+    if note is not None:
+        notes.append(note)
 
     if criterion == "fixed":
         lag_rule = f"fixed by the caller at {_lags_text(search_lags)}"
@@ -311,6 +366,8 @@ def adf(
         rejects=bound == "<" or (bound is None and pvalue < significance),
         significance=significance,
         notes=tuple(notes),
+        pvalue_source=_MACKINNON_PVALUE_SOURCE,
+        lag_criterion=criterion,
     )
 
 
@@ -488,4 +545,815 @@ def kpss(
         rejects=statistic > table[key],
         significance=significance,
         notes=tuple(notes),
+        pvalue_source=(
+            "interpolated linearly between the entries of KPSS (1992) Table 1; a bound beyond the table"
+        ),
+        bandwidth=int(result.lags),
+        bandwidth_rule=lag_rule,
     )
+
+
+# --- Phillips-Perron, DF-GLS, Zivot-Andrews -----------------------------------------------------------
+
+
+def _table_significance_key(significance: float, test: str) -> str:
+    for level, key in _TABLE_LEVELS.items():
+        if math.isclose(significance, level, rel_tol=0.0, abs_tol=1e-12):
+            return key
+    allowed = ", ".join(f"{level:g}" for level in sorted(_TABLE_LEVELS))
+    raise ValueError(f"{test} significance must be one of {allowed}; got {significance!r}")
+
+
+def _interpolated_pvalue(
+    statistic: float, critical_values: dict[str, float], table: str
+) -> tuple[float, str | None, str | None]:
+    """p-value interpolated linearly between the 1%, 5% and 10% critical values; a bound outside.
+
+    Returns the p-value, the bound (``"<"``, ``">"`` or ``None``) and a note when it is a bound.
+    Because the interpolation passes through the critical values, ``pvalue < significance`` holds
+    exactly when the statistic lies below the critical value at that significance.
+    """
+    points = [critical_values["1%"], critical_values["5%"], critical_values["10%"]]
+    if statistic < points[0]:
+        return 0.01, "<", (
+            f"statistic {statistic:.4g} lies below the 1% critical value {points[0]:.4g} of {table}; "
+            "the p-value is reported as a bound (p < 0.01)"
+        )
+    if statistic > points[2]:
+        return 0.10, ">", (
+            f"statistic {statistic:.4g} lies above the 10% critical value {points[2]:.4g} of {table}; "
+            "the p-value is reported as a bound (p > 0.10)"
+        )
+    return float(np.interp(statistic, points, [0.01, 0.05, 0.10])), None, None
+
+
+def newey_west_bandwidth(residuals: np.ndarray) -> int:
+    """Newey and West's (1994) automatic bandwidth for the Bartlett kernel, as a number of lags.
+
+    With ``sigma_j = sum_t u_t u_{t-j}`` over a pilot of ``n = int(4 (T/100)^(2/9))`` lags,
+    ``s0 = sigma_0 + 2 sum_{j=1..n} sigma_j`` and ``s1 = 2 sum_{j=1..n} j sigma_j``, the bandwidth
+    is ``int(1.1447 ((s1/s0)^2)^(1/3) T^(1/3))``, at most ``T - 1``. It is used with the weights
+    ``1 - j/(L+1)``. Only the ratio ``s1/s0`` enters, so the bandwidth does not depend on the units
+    of the residuals (arch's ``auto_bandwidth`` rounds the sums to integers and so does).
+
+    Parameters
+    ----------
+    residuals : numpy.ndarray
+        Residuals (or any mean-zero series) whose long-run variance is to be estimated; at least two.
+
+    Returns
+    -------
+    int
+        The number of autocovariances ``L`` in the Bartlett estimator.
+
+    References
+    ----------
+    Newey, W. K. and West, K. D. (1994). Automatic lag selection in covariance matrix estimation.
+    *Review of Economic Studies* 61, 631-653.
+    """
+    series = np.asarray(residuals, dtype=float)
+    nobs = series.size
+    if nobs < 2:
+        raise ValueError(f"the automatic bandwidth needs at least 2 residuals; got {nobs}")
+    pilot = min(int(4.0 * (nobs / 100.0) ** (2.0 / 9.0)), nobs - 1)
+    autocovariances = np.array([series[j:] @ series[: nobs - j] for j in range(pilot + 1)])
+    s0 = float(autocovariances[0] + 2.0 * autocovariances[1:].sum())
+    s1 = float(2.0 * (np.arange(1.0, pilot + 1.0) * autocovariances[1:]).sum())
+    if s0 == 0.0:
+        return nobs - 1
+    gamma = 1.1447 * ((s1 / s0) ** 2) ** (1.0 / 3.0)
+    return min(int(gamma * nobs ** (1.0 / 3.0)), nobs - 1)
+
+
+def _bartlett_long_run_variance(residuals: np.ndarray, bandwidth: int) -> float:
+    """``gamma_0 + 2 sum_{j=1..L} (1 - j/(L+1)) gamma_j`` with autocovariances divided by ``T``."""
+    nobs = residuals.size
+    value = float(residuals @ residuals) / nobs
+    for lag in range(1, bandwidth + 1):
+        weight = 1.0 - lag / (bandwidth + 1.0)
+        value += 2.0 * weight * float(residuals[lag:] @ residuals[:-lag]) / nobs
+    return value
+
+
+def phillips_perron(
+    values: pd.Series,
+    *,
+    level: int,
+    deterministic: Deterministic,
+    significance: float,
+    bandwidth: int | None = None,
+    min_observations: int = 20,
+) -> TestResult:
+    """Phillips-Perron ``Z_t`` test of the null hypothesis of a unit root.
+
+    The Dickey-Fuller regression ``y_t = rho y_{t-1} + deterministic + u_t`` is fitted by OLS on
+    ``T - 1`` observations and the t-statistic of ``rho - 1`` is corrected for serial correlation in
+    ``u_t``::
+
+        Z_t = sqrt(gamma_0 / lambda^2) (rho - 1) / se(rho)
+              - (lambda^2 - gamma_0) / (2 lambda) * T se(rho) / s
+
+    with ``gamma_0 = sum u_t^2 / T``, ``s^2 = sum u_t^2 / (T - k)`` and ``lambda^2`` the Bartlett
+    (Newey-West) long-run variance of ``u_t`` with weights ``1 - j/(L+1)``.
+
+    Parameters
+    ----------
+    values : pandas.Series
+        The series at differencing level ``level``, float, indexed by a ``PeriodIndex``.
+    level : int
+        Differencing level of ``values``; recorded in the result and messages.
+    deterministic : {"none", "constant", "constant-trend"}
+        Deterministic terms of the Dickey-Fuller regression.
+    significance : float
+        Level at which ``rejects`` is decided (``pvalue < significance``).
+    bandwidth : int, optional
+        Bartlett bandwidth ``L``. Default: :func:`newey_west_bandwidth` of the regression's
+        residuals (Newey and West 1994).
+    min_observations : int, default 20
+        Fewer observations raise :class:`~reportgen.errors.InsufficientDataError`.
+
+    Returns
+    -------
+    TestResult
+        ``lags`` and ``bandwidth`` both hold ``L``; ``nobs`` is ``T - 1``. ``Z_t`` has the
+        Dickey-Fuller distribution, so the critical values and p-value are those of :func:`adf`:
+        MacKinnon's (2010) response surface at ``nobs`` (MacKinnon 1996 without deterministic
+        terms) and MacKinnon's (1994) p-value, a bound beyond its range.
+
+    Raises
+    ------
+    InsufficientDataError
+        When the series has fewer than ``min_observations`` observations, too few for the
+        regression, or not more than ``bandwidth + 1``.
+    DataError
+        When the series is constant, has missing values, or the regression fits it exactly.
+
+    References
+    ----------
+    Phillips, P. C. B. and Perron, P. (1988). Testing for a unit root in time series regression.
+    *Biometrika* 75, 335-346.
+
+    Newey, W. K. and West, K. D. (1994). Automatic lag selection in covariance matrix estimation.
+    *Review of Economic Studies* 61, 631-653.
+
+    Hamilton, J. D. (1994). *Time Series Analysis*. Princeton University Press, section 17.6.
+
+    MacKinnon, J. G. (2010). Critical values for cointegration tests. Queen's Economics Department
+    Working Paper 1227.
+    """
+    if deterministic not in _REGRESSION:
+        raise ValueError(f"deterministic must be one of {', '.join(_REGRESSION)}; got {deterministic!r}")
+    if bandwidth is not None and bandwidth < 0:
+        raise ValueError(f"bandwidth must be 0 or more; got {bandwidth}")
+    if not 0.0 < significance < 1.0:
+        raise ValueError(f"significance must lie strictly between 0 and 1; got {significance!r}")
+
+    array = _as_array(values, "Phillips-Perron", level)
+    nobs_series = array.size
+    trend_count = _TREND_COUNT[deterministic]
+    needed = max(min_observations, trend_count + 3, 0 if bandwidth is None else bandwidth + 2)
+    if nobs_series < needed:
+        with_bandwidth = "" if bandwidth is None else f" and a bandwidth of {bandwidth}"
+        raise InsufficientDataError(
+            f"Phillips-Perron {TERMS_TEXT[deterministic]}{with_bandwidth} needs at least {needed} "
+            f"observations; the series has {nobs_series} at level {level}"
+        )
+    _check_not_constant(array, "Phillips-Perron", level)
+
+    normalised = _normalised(array)
+    nobs = nobs_series - 1
+    columns = [normalised[:-1]]
+    if trend_count >= 1:
+        columns.append(np.ones(nobs))
+    if trend_count == 2:
+        columns.append(np.arange(1.0, nobs + 1.0) / nobs)
+    design = np.column_stack(columns)
+    response = normalised[1:]
+    if np.linalg.matrix_rank(design) < design.shape[1]:
+        raise DataError(
+            f"Phillips-Perron cannot be run: the lagged series is collinear with the deterministic "
+            f"terms at level {level}",
+            hint="the series is (nearly) a constant or a straight line over the regression sample",
+        )
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        fit = OLS(response, design).fit()
+    notes = list(_warning_notes(caught))
+    residuals = np.asarray(fit.resid, dtype=float)
+    sum_of_squares = float(residuals @ residuals)
+    if sum_of_squares <= (1e-13) ** 2 * float(response @ response):
+        raise DataError(
+            f"Phillips-Perron cannot be run: the Dickey-Fuller regression fits the series exactly at level {level}",
+            hint="a series without noise has no long-run variance to estimate; check the data",
+        )
+
+    if bandwidth is None:
+        chosen = newey_west_bandwidth(residuals)
+        bandwidth_rule = (
+            "Newey and West (1994) automatic bandwidth, Bartlett kernel with weights 1 - j/(L+1), "
+            "pilot int(4 (T/100)^(2/9)), L = int(1.1447 (s1/s0)^(2/3) T^(1/3))"
+        )
+        if chosen == nobs - 1:
+            bandwidth_rule += ", capped at T - 1"
+    else:
+        chosen = bandwidth
+        bandwidth_rule = "bandwidth fixed by the caller, Bartlett kernel with weights 1 - j/(L+1)"
+
+    parameters = design.shape[1]
+    gamma0 = sum_of_squares / nobs
+    residual_scale = math.sqrt(sum_of_squares / (nobs - parameters))
+    long_run = _bartlett_long_run_variance(residuals, chosen)
+    rho = float(fit.params[0])
+    standard_error = float(fit.bse[0])
+    statistic = math.sqrt(gamma0 / long_run) * (rho - 1.0) / standard_error - 0.5 * (
+        (long_run - gamma0) / math.sqrt(long_run)
+    ) * (nobs * standard_error / residual_scale)
+
+    regression = _REGRESSION[deterministic]
+    critical = mackinnoncrit(N=1, regression=regression, nobs=nobs)
+    critical_values = {"1%": float(critical[0]), "5%": float(critical[1]), "10%": float(critical[2])}
+    surface = "MacKinnon (1996)" if regression == "n" else "MacKinnon (2010)"
+    pvalue, bound, note = _mackinnon_pvalue(statistic, regression)
+    if note is not None:
+        notes.append(note)
+
+    return TestResult(
+        test="PP",
+        null_hypothesis="unit root",
+        level=level,
+        deterministic=deterministic,
+        statistic=statistic,
+        pvalue=pvalue,
+        pvalue_bound=bound,
+        critical_values=critical_values,
+        critical_values_source=f"{surface} response surface (Dickey-Fuller t distribution), T={nobs}",
+        lags=chosen,
+        lag_rule=bandwidth_rule,
+        nobs=nobs,
+        sample_start=_label(values, 1),
+        sample_end=_label(values, nobs_series - 1),
+        rejects=bound == "<" or (bound is None and pvalue < significance),
+        significance=significance,
+        notes=tuple(notes),
+        pvalue_source=_MACKINNON_PVALUE_SOURCE,
+        bandwidth=chosen,
+        bandwidth_rule=bandwidth_rule,
+        lag_criterion=None,
+    )
+
+
+def _select_lags_without_deterministic_terms(series: np.ndarray, max_lags: int, criterion: str) -> int:
+    """Lag choice in ``dy_t = rho y_{t-1} + sum_{j<=p} phi_j dy_{t-j} + e_t``, ``p = 0..max_lags``.
+
+    The same rule as statsmodels' ``adfuller`` (and so :func:`adf`): every candidate is fitted on
+    the common sample of ``max_lags``; AIC ``-2 llf + 2 k`` and BIC ``-2 llf + k log n`` with the
+    Gaussian log-likelihood at ``SSR/n`` are minimised (the smallest lag on ties); the t-stat rule
+    takes the largest lag whose last coefficient has ``|t| >= 1.6449`` (classical t with
+    ``SSR/(n - k)``), or 0. The candidates are nested, so one QR decomposition of the largest
+    design gives every candidate's residual sum of squares and last t-statistic.
+    """
+    differences = np.diff(series)
+    nobs = differences.size - max_lags
+    response = differences[max_lags:]
+    columns = [series[max_lags:-1]]
+    columns.extend(differences[max_lags - j : max_lags - j + nobs] for j in range(1, max_lags + 1))
+    q, _ = np.linalg.qr(np.column_stack(columns))
+    projection = q.T @ response
+    residuals = response - q @ projection
+    # Index p: the candidate with regressors 0..p (p lags). Summing the squared projections beyond
+    # the candidate's columns, not subtracting from the total, keeps every term positive.
+    beyond = np.concatenate([np.cumsum((projection**2)[::-1])[::-1][1:], [0.0]])
+    sums_of_squares = float(residuals @ residuals) + beyond
+    regressors = np.arange(1, max_lags + 2)
+    if criterion == "t-stat":
+        for lags in range(max_lags, 0, -1):
+            scale = math.sqrt(sums_of_squares[lags] / (nobs - regressors[lags]))
+            if abs(projection[lags]) / scale >= 1.6448536269514722:
+                return lags
+        return 0
+    log_likelihood = -nobs / 2.0 * (math.log(2.0 * math.pi) + np.log(sums_of_squares / nobs) + 1.0)
+    penalty = 2.0 if criterion == "aic" else math.log(nobs)
+    return int(np.argmin(-2.0 * log_likelihood + penalty * regressors))
+
+
+def dfgls_trend_critical_values(nobs: int) -> dict[str, float]:
+    """DF-GLS critical values with constant and trend: Elliott, Rothenberg and Stock (1996), Table I.
+
+    The table's rows (T = 50, 100, 200 and infinity) are interpolated linearly in ``1/T``; below
+    T = 50 the T = 50 row is used.
+
+    Parameters
+    ----------
+    nobs : int
+        Number of observations of the series (the sample that is GLS-detrended).
+
+    Returns
+    -------
+    dict
+        ``{"1%": ..., "5%": ..., "10%": ...}``.
+
+    References
+    ----------
+    Elliott, G., Rothenberg, T. J. and Stock, J. H. (1996). Efficient tests for an autoregressive
+    unit root. *Econometrica* 64, 813-836.
+    """
+    if nobs < 1:
+        raise ValueError(f"nobs must be positive; got {nobs}")
+    inverse = [0.0 if math.isinf(size) else 1.0 / size for size in _ERS_TREND_TABLE]
+    order = np.argsort(inverse)
+    positions = np.asarray(inverse)[order]
+    rows = np.asarray(list(_ERS_TREND_TABLE.values()))[order]
+    return {
+        key: float(np.interp(1.0 / nobs, positions, rows[:, column]))
+        for column, key in enumerate(("1%", "5%", "10%"))
+    }
+
+
+def dfgls(
+    values: pd.Series,
+    *,
+    level: int,
+    deterministic: Deterministic,
+    lag_criterion: str,
+    significance: float,
+    max_lags: int | None = None,
+    min_observations: int = 20,
+) -> TestResult:
+    """Elliott, Rothenberg and Stock's DF-GLS test of the null hypothesis of a unit root.
+
+    The series is GLS-detrended: ``y_t`` and the deterministic terms ``z_t`` (1, or 1 and ``t``)
+    are quasi-differenced with ``alpha = 1 + c/T`` (``c = -7`` with constant, ``-13.5`` with
+    constant and trend), the quasi-differenced ``y`` is regressed on the quasi-differenced ``z``,
+    and ``y_t - z_t' beta`` is tested with an ADF regression without deterministic terms. The
+    number of lagged differences is chosen by AIC, BIC or the t-statistic rule in the ADF
+    regression of the *OLS*-detrended series (Perron and Qu 2007; arch's convention), every
+    candidate on the common sample of the largest lag, or fixed.
+
+    Parameters
+    ----------
+    values : pandas.Series
+        The series at differencing level ``level``, float, indexed by a ``PeriodIndex``.
+    level : int
+        Differencing level of ``values``; recorded in the result and messages.
+    deterministic : {"constant", "constant-trend"}
+        Deterministic terms removed by the GLS detrending.
+    lag_criterion : {"aic", "bic", "t-stat", "fixed"}
+        How the number of lagged differences is chosen; ``"fixed"`` uses exactly ``max_lags``.
+    significance : float
+        One of 0.01, 0.05, 0.10; ``rejects`` is ``statistic < critical value`` at that level.
+    max_lags : int, optional
+        Largest number of lagged differences searched. Default: Schwert (1989) rounded down,
+        reduced to :func:`adf_feasible_max_lags` if needed.
+    min_observations : int, default 20
+        Fewer observations raise :class:`~reportgen.errors.InsufficientDataError`.
+
+    Returns
+    -------
+    TestResult
+        Critical values: with constant, the Dickey-Fuller distribution without deterministic
+        terms (MacKinnon's 1996 response surface at ``nobs``), as Elliott, Rothenberg and Stock
+        show; with constant and trend, their Table I interpolated in ``1/T``
+        (:func:`dfgls_trend_critical_values`). Neither source gives a p-value surface: the
+        p-value is interpolated linearly between the 1%, 5% and 10% critical values and is a
+        bound (``"<"`` 0.01, ``">"`` 0.10) beyond them, so it is a rough guide only; the decision
+        uses the critical value. The no-constant Dickey-Fuller values are asymptotically right for
+        the constant case; in simulations with random walks of T = 250 the 5% test rejected about
+        6.5% of the time (arch's own simulated DF-GLS values are slightly more negative).
+
+    Raises
+    ------
+    InsufficientDataError
+        When the series has fewer than ``min_observations`` observations or the regression with
+        the requested lags is infeasible.
+    DataError
+        When the series is constant, has missing values, or is removed entirely by the detrending.
+
+    References
+    ----------
+    Elliott, G., Rothenberg, T. J. and Stock, J. H. (1996). Efficient tests for an autoregressive
+    unit root. *Econometrica* 64, 813-836.
+
+    Perron, P. and Qu, Z. (2007). A simple modification to improve the finite sample properties of
+    Ng and Perron's unit root tests. *Economics Letters* 94, 12-19.
+
+    MacKinnon, J. G. (1996). Numerical distribution functions for unit root and cointegration
+    tests. *Journal of Applied Econometrics* 11, 601-618.
+
+    Schwert, G. W. (1989). Tests for unit roots: a Monte Carlo investigation. *Journal of Business
+    and Economic Statistics* 7(2), 147-159.
+    """
+    if deterministic not in DFGLS_CBAR:
+        raise ValueError(f"DF-GLS deterministic must be 'constant' or 'constant-trend'; got {deterministic!r}")
+    criterion = lag_criterion.lower()
+    if criterion not in ADF_CRITERIA:
+        raise ValueError(f"lag_criterion must be one of {', '.join(ADF_CRITERIA)}; got {lag_criterion!r}")
+    if criterion == "fixed" and max_lags is None:
+        raise ValueError("lag_criterion 'fixed' needs max_lags, the number of lagged differences")
+    if max_lags is not None and max_lags < 0:
+        raise ValueError(f"max_lags must be 0 or more; got {max_lags}")
+    key = _table_significance_key(significance, "DF-GLS")
+
+    array = _as_array(values, "DF-GLS", level)
+    nobs_series = array.size
+    feasible = adf_feasible_max_lags(nobs_series, deterministic)
+    if max_lags is None:
+        rule_lags = schwert_max_lags(nobs_series)
+        search_lags = min(rule_lags, feasible)
+        if search_lags < rule_lags:
+            rule_text = f"Schwert 1989, floor rule, reduced from {rule_lags} so the regression stays feasible"
+        else:
+            rule_text = "Schwert 1989, floor rule"
+    else:
+        search_lags = max_lags
+        rule_text = "maximum set by the caller"
+
+    shown_lags = max(search_lags, 0)
+    needed = max(min_observations, 2 * (shown_lags + _TREND_COUNT[deterministic] + 1))
+    if nobs_series < needed:
+        up_to = "" if criterion == "fixed" else "up to "
+        raise InsufficientDataError(
+            f"DF-GLS {TERMS_TEXT[deterministic]} and {up_to}{_lags_text(shown_lags)} needs at least "
+            f"{needed} observations; the series has {nobs_series} at level {level}"
+        )
+    _check_not_constant(array, "DF-GLS", level)
+
+    normalised = _normalised(array)
+    terms = [np.ones(nobs_series)]
+    if deterministic == "constant-trend":
+        terms.append(np.arange(1.0, nobs_series + 1.0) / nobs_series)
+    trend_terms = np.column_stack(terms)
+    alpha = 1.0 + DFGLS_CBAR[deterministic] / nobs_series
+    quasi_series = normalised.copy()
+    quasi_series[1:] -= alpha * normalised[:-1]
+    quasi_terms = trend_terms.copy()
+    quasi_terms[1:] -= alpha * trend_terms[:-1]
+    gls_coefficients = np.linalg.lstsq(quasi_terms, quasi_series, rcond=None)[0]
+    detrended = normalised - trend_terms @ gls_coefficients
+    if float(np.max(np.abs(detrended))) <= 1e-12:
+        raise DataError(
+            f"DF-GLS cannot be run: nothing is left of the series after removing its "
+            f"{'trend' if deterministic == 'constant-trend' else 'mean'} at level {level}",
+            hint="the series is an exact straight line; check the data and the transforms",
+        )
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        if criterion == "fixed":
+            lags = search_lags
+        else:
+            ols_coefficients = np.linalg.lstsq(trend_terms, normalised, rcond=None)[0]
+            lags = _select_lags_without_deterministic_terms(
+                normalised - trend_terms @ ols_coefficients, search_lags, criterion
+            )
+        result = adfuller(detrended, maxlag=lags, regression="n", autolag=None, result_object=True)
+    notes = list(_warning_notes(caught))
+
+    statistic = float(result.statistic)
+    nobs = int(result.nobs)
+    if deterministic == "constant":
+        critical = mackinnoncrit(N=1, regression="n", nobs=nobs)
+        critical_values = {"1%": float(critical[0]), "5%": float(critical[1]), "10%": float(critical[2])}
+        source = (
+            f"MacKinnon (1996) response surface without deterministic terms, T={nobs} (the DF-GLS "
+            "statistic with constant has that distribution; Elliott, Rothenberg and Stock 1996)"
+        )
+        table = "the Dickey-Fuller distribution without deterministic terms"
+    else:
+        critical_values = dfgls_trend_critical_values(nobs_series)
+        source = (
+            f"Elliott, Rothenberg and Stock (1996), Table I, trend case, interpolated linearly in 1/T "
+            f"at T={nobs_series}"
+        )
+        table = "Elliott, Rothenberg and Stock (1996) Table I"
+        if nobs_series < 50:
+            notes.append(
+                f"Elliott, Rothenberg and Stock (1996) Table I starts at T=50; its T=50 row is used for "
+                f"T={nobs_series}, which makes the test somewhat too ready to reject"
+            )
+    pvalue, bound, note = _interpolated_pvalue(statistic, critical_values, table)
+    if note is not None:
+        notes.append(note)
+
+    if criterion == "fixed":
+        lag_rule = f"fixed by the caller at {_lags_text(search_lags)}"
+    else:
+        lag_rule = (
+            f"{ADF_CRITERIA[criterion]} in the ADF regression of the OLS-detrended series "
+            f"(Perron and Qu 2007), searched 0 to {_lags_text(search_lags)} ({rule_text})"
+        )
+
+    return TestResult(
+        test="DF-GLS",
+        null_hypothesis="unit root",
+        level=level,
+        deterministic=deterministic,
+        statistic=statistic,
+        pvalue=pvalue,
+        pvalue_bound=bound,
+        critical_values=critical_values,
+        critical_values_source=source,
+        lags=int(result.lags),
+        lag_rule=lag_rule,
+        nobs=nobs,
+        sample_start=_label(values, nobs_series - nobs),
+        sample_end=_label(values, nobs_series - 1),
+        rejects=statistic < critical_values[key],
+        significance=significance,
+        notes=tuple(notes),
+        pvalue_source=(
+            "interpolated linearly between the 1%, 5% and 10% critical values (no published p-value "
+            "surface); a bound beyond them"
+        ),
+        lag_criterion=criterion,
+    )
+
+
+def _za_feasible(nobs: int, lags: int, deterministic: str, trim: float) -> bool:
+    """Whether every candidate Zivot-Andrews regression has full rank and a residual degree of freedom.
+
+    Each regime needs one observation in the regression sample for an intercept break (model A),
+    two for intercept and trend breaks (model C); the regression has ``T - 1 - p`` observations and
+    ``columns + p`` regressors.
+    """
+    trimmed = int(nobs * trim)
+    per_regime = 1 if deterministic == "constant" else 2
+    return (
+        lags >= 0
+        and trimmed - lags >= per_regime
+        and (nobs - 1 - lags) - (_ZA_COLUMNS[deterministic] + lags) >= 1
+    )
+
+
+def _za_feasible_max_lags(nobs: int, deterministic: str, trim: float) -> int:
+    """The largest number of lagged differences :func:`zivot_andrews` can use; negative if none."""
+    per_regime = 1 if deterministic == "constant" else 2
+    return min(int(nobs * trim) - per_regime, (nobs - 2 - _ZA_COLUMNS[deterministic]) // 2)
+
+
+def _za_needed_observations(lags: int, deterministic: str, trim: float) -> int:
+    nobs = 1
+    while not _za_feasible(nobs, lags, deterministic, trim):
+        nobs += 1
+    return nobs
+
+
+def zivot_andrews(
+    values: pd.Series,
+    *,
+    level: int,
+    deterministic: Deterministic,
+    significance: float,
+    lag_criterion: str = "aic",
+    max_lags: int | None = None,
+    trim: float = 0.15,
+    min_observations: int = 30,
+) -> TestResult:
+    """Zivot-Andrews test of a unit root against stationarity with one break at an unknown date.
+
+    For every candidate break ``T_B`` (the last period of the old regime) in the middle
+    ``1 - 2 trim`` of the sample, the regression
+
+    ``dy_t = mu + beta t + theta DU_t (+ gamma DT_t) + alpha y_{t-1} + sum_{j=1..p} c_j dy_{t-j} + e_t``
+
+    is fitted, with ``DU_t = 1`` and ``DT_t = t - T_B`` for ``t > T_B`` (zero before); the
+    statistic is the smallest t-statistic of ``alpha`` over the candidates and the break is where
+    it is attained. The number of lagged differences ``p`` is chosen once, in the ADF regression
+    with constant and trend and no break terms (Baum's 2004 approximation, also statsmodels' and
+    arch's), or fixed.
+
+    Parameters
+    ----------
+    values : pandas.Series
+        The series at differencing level ``level``, float, indexed by a ``PeriodIndex``.
+    level : int
+        Differencing level of ``values``; recorded in the result and messages.
+    deterministic : {"constant", "constant-trend"}
+        ``"constant"``: a break in the intercept (model A; the regression has a linear trend
+        without a break). ``"constant-trend"``: breaks in the intercept and the trend (model C).
+    significance : float
+        One of 0.01, 0.05, 0.10; ``rejects`` is ``statistic < critical value`` at that level.
+    lag_criterion : {"aic", "bic", "t-stat", "fixed"}, default "aic"
+        How the number of lagged differences is chosen; ``"fixed"`` uses exactly ``max_lags``.
+    max_lags : int, optional
+        Largest number of lagged differences searched. Default: Schwert (1989) rounded down,
+        reduced so that every candidate regression is feasible.
+    trim : float, default 0.15
+        Share of the sample excluded at each end from the candidate breaks, in (0, 1/3]: the
+        candidates ``T_B`` run from ``int(trim T)`` to ``T - int(trim T) - 1`` (0-based).
+    min_observations : int, default 30
+        Fewer observations raise :class:`~reportgen.errors.InsufficientDataError`.
+
+    Returns
+    -------
+    TestResult
+        ``break_date`` is the label of ``T_B``, the **last period before the break** (Zivot and
+        Andrews' convention and the position statsmodels' ``zivot_andrews`` returns); the notes
+        name the first period of the new regime as well, which is what some programs report.
+        Critical values are Zivot and Andrews' (1992) asymptotic values, tabulated for trim 0.15.
+        The p-value is interpolated in statsmodels' simulated distribution of the statistic and is
+        a bound beyond its range; when it and the critical value disagree, the decision follows
+        the critical value and a note says so.
+
+    Raises
+    ------
+    InsufficientDataError
+        When the series has fewer than ``min_observations`` observations or the candidate
+        regressions with the requested lags are infeasible.
+    DataError
+        When the series is constant, has missing values, or a candidate regression is singular.
+
+    References
+    ----------
+    Zivot, E. and Andrews, D. W. K. (1992). Further evidence on the great crash, the oil-price
+    shock, and the unit-root hypothesis. *Journal of Business and Economic Statistics* 10,
+    251-270.
+
+    Baum, C. F. (2004). ZANDREWS: module to calculate the Zivot-Andrews unit root test in the
+    presence of a structural break. Statistical Software Components S437301, Boston College.
+
+    Schwert, G. W. (1989). Tests for unit roots: a Monte Carlo investigation. *Journal of Business
+    and Economic Statistics* 7(2), 147-159.
+    """
+    if deterministic not in _ZA_COLUMNS:
+        raise ValueError(
+            f"Zivot-Andrews deterministic must be 'constant' or 'constant-trend'; got {deterministic!r}"
+        )
+    criterion = lag_criterion.lower()
+    if criterion not in ADF_CRITERIA:
+        raise ValueError(f"lag_criterion must be one of {', '.join(ADF_CRITERIA)}; got {lag_criterion!r}")
+    if criterion == "fixed" and max_lags is None:
+        raise ValueError("lag_criterion 'fixed' needs max_lags, the number of lagged differences")
+    if max_lags is not None and max_lags < 0:
+        raise ValueError(f"max_lags must be 0 or more; got {max_lags}")
+    if not 0.0 < trim <= 1.0 / 3.0:
+        raise ValueError(f"trim must lie in (0, 1/3]; got {trim!r}")
+    key = _table_significance_key(significance, "Zivot-Andrews")
+
+    array = _as_array(values, "Zivot-Andrews", level)
+    nobs_series = array.size
+    feasible = _za_feasible_max_lags(nobs_series, deterministic, trim)
+    if max_lags is None:
+        rule_lags = schwert_max_lags(nobs_series)
+        search_lags = min(rule_lags, feasible)
+        if search_lags < rule_lags:
+            rule_text = f"Schwert 1989, floor rule, reduced from {rule_lags} so the regressions stay feasible"
+        else:
+            rule_text = "Schwert 1989, floor rule"
+    else:
+        search_lags = max_lags
+        rule_text = "maximum set by the caller"
+
+    shown_lags = max(search_lags, 0)
+    needed = max(min_observations, _za_needed_observations(shown_lags, deterministic, trim))
+    if nobs_series < needed:
+        up_to = "" if criterion == "fixed" else "up to "
+        raise InsufficientDataError(
+            f"Zivot-Andrews {ZA_MODEL_TEXT[deterministic]}, trim {trim:g} and {up_to}"
+            f"{_lags_text(shown_lags)} needs at least {needed} observations; the series has "
+            f"{nobs_series} at level {level}"
+        )
+    _check_not_constant(array, "Zivot-Andrews", level)
+
+    normalised = _normalised(array)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        if criterion == "fixed":
+            lags = search_lags
+        else:
+            selection = adfuller(
+                normalised, maxlag=search_lags, regression="ct", autolag=criterion, result_object=True
+            )
+            lags = int(selection.lags)
+    notes = list(_warning_notes(caught))
+
+    statistic, last_before = _za_search(normalised, lags, deterministic, trim, values, level)
+
+    critical_values = dict(_ZA_1992[deterministic])
+    pvalue, bound = _za_pvalue(statistic, deterministic)
+    if bound is not None:
+        side = "below" if bound == "<" else "above"
+        notes.append(
+            f"statistic {statistic:.4g} lies {side} the range of statsmodels' simulated Zivot-Andrews "
+            f"distribution; the p-value is reported as a bound (p {bound} {pvalue:g})"
+        )
+    rejects = statistic < critical_values[key]
+    if rejects != (pvalue < significance):
+        notes.append(
+            f"the p-value {pvalue:.3g} (statsmodels' simulated distribution) and the {key} critical value "
+            f"{critical_values[key]:g} (Zivot and Andrews 1992) disagree; the decision follows the "
+            "critical value"
+        )
+    if not math.isclose(trim, 0.15, rel_tol=0.0, abs_tol=1e-12):
+        notes.append(f"the critical values are tabulated for trim 0.15; this test used trim {trim:g}")
+
+    break_date = _label(values, last_before)
+    first_after = _label(values, last_before + 1)
+    notes.append(
+        f"break date {break_date} is the last period before the break (Zivot and Andrews' T_B); "
+        f"the break terms are nonzero from {first_after} on, which some programs report as the break date"
+    )
+
+    if criterion == "fixed":
+        lag_rule = f"fixed by the caller at {_lags_text(search_lags)}"
+    else:
+        lag_rule = (
+            f"{ADF_CRITERIA[criterion]} in the ADF regression with constant and trend and no break terms "
+            f"(Baum 2004), searched 0 to {_lags_text(search_lags)} ({rule_text})"
+        )
+    nobs = nobs_series - 1 - lags
+
+    return TestResult(
+        test="Zivot-Andrews",
+        null_hypothesis="unit root",
+        level=level,
+        deterministic=deterministic,
+        statistic=statistic,
+        pvalue=pvalue,
+        pvalue_bound=bound,
+        critical_values=critical_values,
+        critical_values_source=(
+            f"Zivot and Andrews (1992), asymptotic critical values, model "
+            f"{'A (break in the intercept)' if deterministic == 'constant' else 'C (breaks in intercept and trend)'}"
+            ", tabulated for trim 0.15"
+        ),
+        lags=lags,
+        lag_rule=lag_rule,
+        nobs=nobs,
+        sample_start=_label(values, lags + 1),
+        sample_end=_label(values, nobs_series - 1),
+        rejects=rejects,
+        significance=significance,
+        notes=tuple(notes),
+        pvalue_source=(
+            "interpolated linearly in statsmodels' simulated quantiles of the Zivot-Andrews statistic "
+            "(100,000 replications of 2,000 observations); a bound beyond their range"
+        ),
+        break_date=break_date,
+        lag_criterion=criterion,
+    )
+
+
+def _za_pvalue(statistic: float, deterministic: str) -> tuple[float, str | None]:
+    """p-value in statsmodels' simulated Zivot-Andrews quantiles, linear between them; a bound beyond.
+
+    The table (``zivot_andrews._za_critical_values`` in statsmodels, percentiles 0.001 to 99.9) is
+    the one statsmodels' own ``zivot_andrews`` interpolates; statsmodels clamps beyond its ends,
+    reportgen reports the end as a bound instead.
+    """
+    table = _statsmodels_zivot_andrews._za_critical_values[_ZA_REGRESSION[deterministic]]
+    quantiles, points = table[:, 0] / 100.0, table[:, 1]
+    if statistic < points[0]:
+        return float(quantiles[0]), "<"
+    if statistic > points[-1]:
+        return float(quantiles[-1]), ">"
+    return float(np.interp(statistic, points, quantiles)), None
+
+
+def _za_search(
+    series: np.ndarray, lags: int, deterministic: str, trim: float, values: pd.Series, level: int
+) -> tuple[float, int]:
+    """Smallest t-statistic of the lagged level over the candidate breaks, and its ``T_B`` (0-based).
+
+    The lagged level is the last column, so its t-statistic is ``sign(R_kk) (Q'y)_k / s`` from the
+    QR decomposition of the regressors.
+    """
+    nobs_series = series.size
+    differences = np.diff(series)
+    nobs = nobs_series - 1 - lags
+    times = np.arange(lags + 1, nobs_series, dtype=float)  # 0-based period of each regression row
+    response = differences[lags:]
+    columns = [np.ones(nobs), times / nobs_series]
+    columns.extend(differences[lags - j : lags - j + nobs] for j in range(1, lags + 1))
+    fixed = np.column_stack(columns)
+    breaks = 1 if deterministic == "constant" else 2
+    design = np.empty((nobs, fixed.shape[1] + breaks + 1))
+    design[:, : fixed.shape[1]] = fixed
+    design[:, -1] = series[lags : nobs_series - 1]
+    degrees_of_freedom = nobs - design.shape[1]
+    trimmed = int(nobs_series * trim)
+    best_statistic, best_break = math.inf, -1
+    for last_before in range(trimmed, nobs_series - trimmed):
+        after = times > last_before
+        design[:, fixed.shape[1]] = after
+        if breaks == 2:
+            design[:, fixed.shape[1] + 1] = np.where(after, (times - last_before) / nobs_series, 0.0)
+        q, r = np.linalg.qr(design)
+        diagonal = np.abs(np.diag(r))
+        if diagonal.min() <= 1e-10 * diagonal.max():
+            raise DataError(
+                f"Zivot-Andrews cannot be run: the regression with a break after "
+                f"{_label(values, last_before)} is singular at level {level}",
+                hint="the series may have long stretches of constant values; try fewer lags",
+            )
+        projection = q.T @ response
+        residuals = response - q @ projection
+        scale = math.sqrt(float(residuals @ residuals) / degrees_of_freedom)
+        if scale == 0.0:
+            raise DataError(
+                f"Zivot-Andrews cannot be run: the regression fits the series exactly at level {level}",
+                hint="a series without noise cannot be tested; check the data",
+            )
+        statistic = float(math.copysign(1.0, r[-1, -1]) * projection[-1] / scale)
+        if statistic < best_statistic:
+            best_statistic, best_break = statistic, last_before
+    return best_statistic, best_break

@@ -133,3 +133,9 @@ def test_bad_names_are_refused(project: Callable[..., Path], base: str) -> None:
                    .replace("a_on_b", "r"))
     rendered = _render(path)
     assert "series.2b: '2b' is not a usable name" in rendered
+
+
+def test_control_characters_are_a_manifest_error(project: Callable[..., Path]) -> None:
+    path = project("reportgen: 1\x0b\nproject: {title: x}\n")
+    rendered = _render(path)
+    assert rendered.startswith(f"{path}: error: YAML error: unacceptable character #x000b")

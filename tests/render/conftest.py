@@ -1,25 +1,36 @@
 """A realistic results document built by hand from the result types, for the render tests.
 
 Seven monthly series (orders 0, 1, 2 and undetermined) and five regressions, one per verdict.
-The numbers are made up but internally plausible; nothing here runs a statistical test.
+The integrated series carry the full battery (ADF, PP, DF-GLS, KPSS, Zivot-Andrews, with an
+auxiliary ADF that chose the deterministic terms), a robustness grid and a fan chart; one series
+and one regression are fragile. The cointegrated and the spurious regressions carry Engle-Granger
+under both normalisations, Johansen's tests and a bounds test. The numbers are made up but
+internally plausible; nothing here runs a statistical test.
 """
 
 from __future__ import annotations
 
 import copy
+import dataclasses
+import json
 import math
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import Any
 
 import pytest
 
 from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, results_to_dict
 from reportgen.stats.types import (
+    BoundsTestResult,
     Coefficient,
     CointegrationTest,
     DiagnosticTest,
+    FanChart,
     Fit,
+    GridCell,
+    JohansenResult,
     OrderVerdict,
+    RankTest,
     RegressionAssessment,
     TestResult,
 )
@@ -51,7 +62,7 @@ def wave(count: int, *, level: float, drift: float, amplitude: float, period: fl
 
 def adf(level: int, statistic: float, pvalue: float, *, rejects: bool, deterministic: str = "constant",
         bound: str | None = None, lags: int = 2, nobs: int = 117, start: str = "2010-04",
-        notes: tuple[str, ...] = ()) -> TestResult:
+        notes: tuple[str, ...] = (), auxiliary: bool = False) -> TestResult:
     """An ADF result with MacKinnon-style critical values."""
     values = {"1%": -3.49, "5%": -2.89, "10%": -2.58} if deterministic == "constant" else {
         "1%": -4.04, "5%": -3.45, "10%": -3.15}
@@ -60,7 +71,8 @@ def adf(level: int, statistic: float, pvalue: float, *, rejects: bool, determini
         statistic=statistic, pvalue=pvalue, pvalue_bound=bound, critical_values=values,
         critical_values_source=f"MacKinnon (2010), response surface at T={nobs}", lags=lags,
         lag_rule="AIC, at most 12 (Schwert 1989)", nobs=nobs, sample_start=start, sample_end="2019-12",
-        rejects=rejects, significance=0.05, notes=notes,
+        rejects=rejects, significance=0.05, notes=notes, pvalue_source="MacKinnon (1994) response surface",
+        lag_criterion="aic", auxiliary=auxiliary,
     )
 
 
@@ -74,11 +86,110 @@ def kpss(level: int, statistic: float, pvalue: float, *, rejects: bool, determin
         critical_values_source="Kwiatkowski et al. (1992), Table 1", lags=lags,
         lag_rule="Bartlett bandwidth, Hobijn et al. (2004) automatic", nobs=nobs, sample_start=start,
         sample_end="2019-12", rejects=rejects, significance=0.05,
+        pvalue_source="interpolated in Kwiatkowski et al. (1992), Table 1", bandwidth=lags,
+        bandwidth_rule="Hobijn, Franses and Ooms (2004) automatic, Bartlett kernel",
     )
 
 
+def pp(level: int, statistic: float, pvalue: float, *, rejects: bool, deterministic: str = "constant",
+       bound: str | None = None, bandwidth: int = 4, nobs: int = 119, start: str = "2010-02") -> TestResult:
+    """A Phillips-Perron result: no lag search, a long-run variance bandwidth instead."""
+    values = {"1%": -3.49, "5%": -2.89, "10%": -2.58} if deterministic == "constant" else {
+        "1%": -4.04, "5%": -3.45, "10%": -3.15}
+    return TestResult(
+        test="PP", null_hypothesis="unit root", level=level, deterministic=deterministic,  # type: ignore[arg-type]
+        statistic=statistic, pvalue=pvalue, pvalue_bound=bound, critical_values=values,
+        critical_values_source=f"MacKinnon (2010), response surface at T={nobs}", lags=0,
+        lag_rule="none: serial correlation is handled by the long-run variance", nobs=nobs,
+        sample_start=start, sample_end="2019-12", rejects=rejects, significance=0.05,
+        pvalue_source="MacKinnon (1994) response surface", bandwidth=bandwidth,
+        bandwidth_rule="Newey and West (1994) automatic, Bartlett kernel",
+    )
+
+
+def dfgls(level: int, statistic: float, pvalue: float, *, rejects: bool, deterministic: str = "constant",
+          bound: str | None = None, lags: int = 1, nobs: int = 118, start: str = "2010-03") -> TestResult:
+    """A DF-GLS result with Elliott-Rothenberg-Stock critical values."""
+    values = {"1%": -2.58, "5%": -1.95, "10%": -1.62} if deterministic == "constant" else {
+        "1%": -3.48, "5%": -2.89, "10%": -2.57}
+    return TestResult(
+        test="DF-GLS", null_hypothesis="unit root", level=level, deterministic=deterministic,  # type: ignore[arg-type]
+        statistic=statistic, pvalue=pvalue, pvalue_bound=bound, critical_values=values,
+        critical_values_source="Elliott, Rothenberg and Stock (1996), Table 1", lags=lags,
+        lag_rule="modified AIC, at most 12 (Ng and Perron 2001)", nobs=nobs, sample_start=start,
+        sample_end="2019-12", rejects=rejects, significance=0.05,
+        pvalue_source="Cheung and Lai (1995) response surface", lag_criterion="aic",
+    )
+
+
+def zivot_andrews(level: int, statistic: float, pvalue: float, *, rejects: bool, break_date: str,
+                  bound: str | None = None, lags: int = 1, nobs: int = 117, start: str = "2010-04") -> TestResult:
+    """A Zivot-Andrews result: a unit root against stationarity with one break in the intercept."""
+    return TestResult(
+        test="ZA", null_hypothesis="unit root", level=level, deterministic="constant",
+        statistic=statistic, pvalue=pvalue, pvalue_bound=bound,
+        critical_values={"1%": -5.34, "5%": -4.80, "10%": -4.58},
+        critical_values_source="Zivot and Andrews (1992), Table 2", lags=lags, lag_rule="t-stat, at most 8",
+        nobs=nobs, sample_start=start, sample_end="2019-12", rejects=rejects, significance=0.05,
+        notes=("The break date is the last period of the old regime; 15% of the sample is trimmed at each end.",),
+        pvalue_source="simulated, 2,000 replications", break_date=break_date, lag_criterion="t-stat",
+    )
+
+
+def battery(level: int, integrated: bool, *, trend: bool = False, break_date: str = "2014-06",
+            auxiliary: bool = False) -> list[TestResult]:
+    """The full battery at one level: every test agrees that the series is (not) stationary there."""
+    terms = "constant-trend" if trend else "constant"
+    nobs = 117 - level
+    tests = []
+    if auxiliary:
+        tests.append(adf(level, -2.31 if integrated else -5.02, 0.421 if integrated else 0.0004,
+                         rejects=not integrated, deterministic="constant-trend", nobs=nobs, auxiliary=True))
+    tests += [
+        adf(level, -1.62 if integrated else -7.41, 0.4712 if integrated else 0.001, rejects=not integrated,
+            deterministic=terms, bound=None if integrated else "<", nobs=nobs),
+        pp(level, -1.48 if integrated else -9.12, 0.5403 if integrated else 0.001, rejects=not integrated,
+           deterministic=terms, bound=None if integrated else "<"),
+        dfgls(level, -0.87 if integrated else -4.88, 0.318 if integrated else 0.01, rejects=not integrated,
+              deterministic=terms, bound=None if integrated else "<"),
+        kpss(level, 0.912 if integrated else 0.081, 0.01 if integrated else 0.10, rejects=integrated,
+             deterministic=terms, bound="<" if integrated else ">"),
+    ]
+    if level == 0:
+        tests.append(zivot_andrews(level, -3.91 if integrated else -6.02, 0.33 if integrated else 0.01,
+                                   rejects=not integrated, break_date=break_date, bound=None if integrated else "<"))
+    return tests
+
+
+GRID_TESTS = ("ADF", "PP", "DF-GLS", "KPSS", "combined")
+GRID_TERMS = ("constant", "constant-trend")
+GRID_CRITERIA = ("aic", "bic", "t-stat")
+
+
+def grid(order: int | None, changes: Mapping[tuple[str, str, str], int | None] | None = None) -> tuple[GridCell, ...]:
+    """A full robustness grid (5 tests x 2 terms x 3 criteria) with ``order`` except at ``changes``."""
+    changes = changes or {}
+    return tuple(
+        GridCell(test=test, lag_criterion=criterion, deterministic=terms,  # type: ignore[arg-type]
+                 order=changes.get((test, terms, criterion), order))
+        for test in GRID_TESTS for terms in GRID_TERMS for criterion in GRID_CRITERIA
+    )
+
+
+def fan(dates: Sequence[str], first: float, drift: float, std: float, share_outside: float) -> FanChart:
+    """Quantile paths of a random walk with drift, as the statistics stage would store them."""
+    quantiles = {"5%": -1.645, "25%": -0.674, "50%": 0.0, "75%": 0.674, "95%": 1.645}
+    bands = {label: tuple(first + drift * t + z * std * math.sqrt(t) for t in range(len(dates)))
+             for label, z in quantiles.items()}
+    return FanChart(dates=tuple(dates), bands=bands, drift=drift, innovation_std=std, replications=500,
+                    seed=20240601, share_outside=share_outside,
+                    description="500 random walks with the series' mean change and innovation spread, "
+                                "started at its first value.")
+
+
 def order_verdict(name: str, order: int | None, tests: Sequence[TestResult], nobs: int,
-                  reason: str | None = None) -> OrderVerdict:
+                  reason: str | None = None, *, cells: tuple[GridCell, ...] = (), fragile_reason: str | None = None,
+                  fan_chart: FanChart | None = None) -> OrderVerdict:
     """An order verdict with a short trail built from its tests."""
     trail = [
         f"{test.test} at level {test.level}: statistic {test.statistic:.3f}, "
@@ -89,7 +200,10 @@ def order_verdict(name: str, order: int | None, tests: Sequence[TestResult], nob
         trail.append(f"Both tests agree at level {order}: the series is taken as I({order}).")
     else:
         trail.append(reason or "No order could be decided.")
-    deterministic = {test.level: test.deterministic for test in tests}
+    deterministic: dict[int, Any] = {}
+    for test in tests:  # the terms of the first decision test at each level
+        if not test.auxiliary:
+            deterministic.setdefault(test.level, test.deterministic)
     return OrderVerdict(
         series=name, order=order, deterministic=deterministic,
         deterministic_reasons={
@@ -99,6 +213,7 @@ def order_verdict(name: str, order: int | None, tests: Sequence[TestResult], nob
         },
         tests=tuple(tests), trail=tuple(trail), reason=reason, nobs=nobs,
         notes=("KPSS p-value lies beyond the table: the edge is shown.",) if any(t.pvalue_bound for t in tests) else (),
+        grid=cells, fragile=fragile_reason is not None, fragile_reason=fragile_reason, fan_chart=fan_chart,
     )
 
 
@@ -106,6 +221,7 @@ def fit(role: str, equation: str, dependent: str, terms: Sequence[tuple[str, flo
         dates: Sequence[str], *, r_squared: float, durbin_watson: float, scale: float = 0.05,
         covariance: str = "HAC (Newey-West, Bartlett kernel, 4 lags, small-sample correction)") -> Fit:
     """A fitted equation with made-up residuals on ``dates``."""
+    hac = covariance.startswith("HAC")
     coefficients = tuple(
         Coefficient(term=term, estimate=estimate, std_error=error, t_statistic=estimate / error,
                     pvalue=min(1.0, math.exp(-abs(estimate / error))))
@@ -120,6 +236,8 @@ def fit(role: str, equation: str, dependent: str, terms: Sequence[tuple[str, flo
         adj_r_squared=1 - (1 - r_squared) * (nobs - 1) / max(1, nobs - regressors - 1),
         durbin_watson=durbin_watson, residual_std_error=scale * 0.8, sample_start=dates[0],
         sample_end=dates[-1], residual_dates=tuple(dates), residuals=residuals,
+        hac_kernel="Bartlett" if hac else "", hac_bandwidth=4 if hac else None,
+        hac_bandwidth_rule="int(4 (T/100)^(2/9))" if hac else "", small_sample_correction=hac,
         diagnostics=(
             DiagnosticTest(name="Ljung-Box (Q, 12 lags)", null_hypothesis="no autocorrelation up to lag 12",
                            statistic=14.2 if durbin_watson > 1.5 else 211.7,
@@ -129,7 +247,43 @@ def fit(role: str, equation: str, dependent: str, terms: Sequence[tuple[str, flo
                            rejects=False),
             DiagnosticTest(name="Breusch-Pagan", null_hypothesis="constant residual variance", statistic=3.1,
                            pvalue=0.0781, rejects=False),
+            DiagnosticTest(name="RESET (squares and cubes of the fit)", null_hypothesis="no omitted non-linearity",
+                           statistic=1.22, pvalue=0.298, rejects=False),
         ),
+    )
+
+
+def engle_granger(dependent: str, variables: tuple[str, ...], statistic: float, pvalue: float, *, rejects: bool,
+                  lags: int, nobs: int, notes: tuple[str, ...] = ()) -> CointegrationTest:
+    """An Engle-Granger test with ``dependent`` on the left of the cointegrating regression."""
+    count = len(variables)
+    values = {2: {"1%": -3.99, "5%": -3.38, "10%": -3.07}, 3: {"1%": -4.38, "5%": -3.77, "10%": -3.45}}[count]
+    return CointegrationTest(
+        method="Engle-Granger", dependent=dependent, variables=variables, deterministic="constant",
+        statistic=statistic, pvalue=pvalue, pvalue_bound=None, critical_values=values,
+        critical_values_source=f"MacKinnon (2010), {count} variables, constant", lags=lags,
+        lag_rule="AIC, at most 12", nobs=nobs, rejects=rejects, significance=0.05, notes=notes,
+    )
+
+
+def johansen(variables: tuple[str, ...], *, rank: int, trace: Sequence[float],
+             maximum: Sequence[float]) -> JohansenResult:
+    """Johansen's tests on ``variables`` (case 3); the 99% trace value of the last rank is missing."""
+    trace_values = [{"90%": 26.70, "95%": 29.80, "99%": 35.46}, {"90%": 13.43, "95%": 15.49, "99%": 19.94},
+                    {"90%": 2.71, "95%": 3.84}][-len(variables):]
+    maximum_values = [{"90%": 18.89, "95%": 21.13, "99%": 25.86}, {"90%": 12.30, "95%": 14.26, "99%": 18.52},
+                      {"90%": 2.71, "95%": 3.84, "99%": 6.63}][-len(variables):]
+    return JohansenResult(
+        variables=variables, case=3, case_description="unrestricted constant", lags=1,
+        lag_rule="BIC over VAR orders 1 to 6", nobs=118,
+        eigenvalues=tuple(round(0.18 / (index + 1), 4) for index in range(len(variables))),
+        trace=tuple(RankTest(rank=index, statistic=value, critical_values=trace_values[index],
+                             rejects=index < rank) for index, value in enumerate(trace)),
+        max_eigenvalue=tuple(RankTest(rank=index, statistic=value, critical_values=maximum_values[index],
+                                      rejects=index < rank) for index, value in enumerate(maximum)),
+        rank=rank, rank_rule="first trace test that does not reject, from rank 0 up",
+        critical_values_source="Osterwald-Lenum (1992), Table 1", significance=0.05,
+        notes=("The VAR residuals show no autocorrelation up to lag 12.",),
     )
 
 
@@ -145,6 +299,12 @@ METHODS: dict[str, Any] = {
         "otherwise a constant only.",
         "Differenced series are tested with a constant only.",
     ],
+    "grid_rule": [
+        "Every decision test is re-run under each lag criterion (AIC, BIC, t-statistics) and each choice of "
+        "deterministic terms (constant; constant and trend).",
+        "Each cell shows the order that test alone implies; the combined row applies the whole decision procedure.",
+        "A series is fragile when the combined order changes anywhere in the grid.",
+    ],
     "verdict_rule": [
         "All variables I(0): the levels regression stands.",
         "Integrated variables of equal order with a cointegration test that rejects: cointegrated.",
@@ -158,6 +318,21 @@ METHODS: dict[str, Any] = {
         {"name": "KPSS", "null_hypothesis": "stationarity",
          "description": "Lagrange-multiplier test of a stationary series around a constant or trend.",
          "reference": "Kwiatkowski, Phillips, Schmidt and Shin (1992)"},
+        {"name": "PP", "null_hypothesis": "unit root",
+         "description": "Phillips-Perron test with a long-run variance correction instead of lagged differences.",
+         "reference": "Phillips and Perron (1988)"},
+        {"name": "DF-GLS", "null_hypothesis": "unit root",
+         "description": "Dickey-Fuller test on GLS-detrended data.",
+         "reference": "Elliott, Rothenberg and Stock (1996)"},
+        {"name": "ZA", "null_hypothesis": "unit root",
+         "description": "Unit-root test against stationarity with one break at an unknown date.",
+         "reference": "Zivot and Andrews (1992)"},
+        {"name": "Johansen", "null_hypothesis": "cointegrating rank at most r",
+         "description": "Trace and maximum-eigenvalue tests in a VAR in error-correction form.",
+         "reference": "Johansen (1988, 1991)"},
+        {"name": "Bounds test", "null_hypothesis": "no levels relation",
+         "description": "F-test on the lagged levels of an ARDL model against I(0) and I(1) bounds.",
+         "reference": "Pesaran, Shin and Smith (2001)"},
         {"name": "Engle-Granger", "null_hypothesis": "no cointegration",
          "description": "ADF-type test on the residuals of the levels regression.",
          "reference": "Engle and Granger (1987)"},
@@ -195,32 +370,24 @@ def build_results() -> Results:
                                           kpss(0, 0.121, 0.10, rejects=False, bound=">")], 120),
         "fuel_growth": order_verdict("fuel_growth", 0, [adf(0, -6.204, 0.001, rejects=True, bound="<"),
                                                         kpss(0, 0.088, 0.10, rejects=False, bound=">")], 120),
-        "boxes": order_verdict("boxes", 1, [
-            adf(0, -2.101, 0.5391, rejects=False, deterministic="constant-trend"),
-            kpss(0, 0.412, 0.01, rejects=True, deterministic="constant-trend", bound="<"),
-            adf(1, -7.733, 0.001, rejects=True, bound="<", nobs=116, start="2010-05"),
-            kpss(1, 0.092, 0.10, rejects=False, bound=">", nobs=119, start="2010-02"),
-        ], 120),
-        "fuel": order_verdict("fuel", 1, [
-            adf(0, -1.634, 0.4651, rejects=False),
-            kpss(0, 1.218, 0.01, rejects=True, bound="<"),
-            adf(1, -8.912, 0.001, rejects=True, bound="<", nobs=116, start="2010-05"),
-            kpss(1, 0.151, 0.10, rejects=False, bound=">", nobs=119, start="2010-02"),
-        ], 120),
-        "wages": order_verdict("wages", 1, [
-            adf(0, -0.915, 0.7824, rejects=False, deterministic="constant-trend"),
-            kpss(0, 0.301, 0.01, rejects=True, deterministic="constant-trend", bound="<"),
-            adf(1, -5.127, 0.00011, rejects=True, nobs=116, start="2010-05"),
-            kpss(1, 0.211, 0.10, rejects=False, bound=">", nobs=119, start="2010-02"),
-        ], 120),
-        "cpi": order_verdict("cpi", 2, [
-            adf(0, -0.411, 0.9032, rejects=False, deterministic="constant-trend"),
-            kpss(0, 0.689, 0.01, rejects=True, deterministic="constant-trend", bound="<"),
-            adf(1, -1.887, 0.3381, rejects=False, nobs=116, start="2010-05"),
-            kpss(1, 0.562, 0.0251, rejects=True, nobs=119, start="2010-02"),
-            adf(2, -9.871, 0.001, rejects=True, bound="<", nobs=115, start="2010-06"),
-            kpss(2, 0.044, 0.10, rejects=False, bound=">", nobs=118, start="2010-03"),
-        ], 120),
+        "boxes": order_verdict(
+            "boxes", 1, [*battery(0, True, trend=True, auxiliary=True, break_date="2013-11"), *battery(1, False)], 120,
+            cells=grid(1), fan_chart=fan(dates, raw["boxes"][0], 0.006, 0.021, 0.042)),
+        "fuel": order_verdict(
+            "fuel", 1, [*battery(0, True, auxiliary=True, break_date="2014-06"), *battery(1, False)], 120,
+            cells=grid(1), fan_chart=fan(dates, raw["fuel"][0], 0.004, 0.035, 0.0)),
+        "wages": order_verdict(
+            "wages", 1, [*battery(0, True, trend=True, auxiliary=True, break_date="2016-02"), *battery(1, False)],
+            120,
+            cells=grid(1, {("DF-GLS", "constant", "bic"): 0, ("DF-GLS", "constant", "t-stat"): 0,
+                           ("combined", "constant", "bic"): None}),
+            fragile_reason="DF-GLS with a constant finds I(0) when lags are chosen by BIC or by t-statistics; "
+                           "with a constant and BIC the combined decision is undetermined.",
+            fan_chart=fan(dates, raw["wages"][0], 0.003, 0.012, 0.183)),
+        "cpi": order_verdict(
+            "cpi", 2, [*battery(0, True, trend=True, auxiliary=True, break_date="2012-01"), *battery(1, True),
+                       *battery(2, False)], 120,
+            cells=grid(2), fan_chart=fan(dates, raw["cpi"][0], 0.0012, 0.004, 0.25)),
         "survey": order_verdict("survey", None, [], 16,
                                 reason="needs at least 20 observations at level 0; the series has 16"),
     }
@@ -267,40 +434,64 @@ def build_results() -> Results:
                    "The long-run relation is kept and an error-correction model is estimated."),
             levels=fit("levels", "boxes ~ const + fuel", "boxes", [("const", 6.31, 0.42), ("fuel", 1.07, 0.09)],
                        levels_dates, r_squared=0.912, durbin_watson=0.61),
-            long_run=fit("long-run", "boxes ~ const + fuel", "boxes", [("const", 6.31, 0.42), ("fuel", 1.07, 0.09)],
-                         levels_dates, r_squared=0.912, durbin_watson=0.61, covariance="classical (OLS)"),
+            long_run=fit("long-run (dynamic OLS)", "boxes ~ const + fuel + d.fuel(-2..2)", "boxes",
+                         [("const", 6.28, 0.51), ("fuel", 1.08, 0.11)], levels_dates[2:-2], r_squared=0.934,
+                         durbin_watson=0.74),
             error_correction=fit(
                 "error-correction", "d.boxes ~ const + ec(-1) + d.fuel + d.boxes(-1)", "d.boxes",
                 [("const", 0.0011, 0.0009), ("ec(-1)", -0.187, 0.041), ("d.fuel", 0.352, 0.118),
                  ("d.boxes(-1)", 0.104, 0.088)], ecm_dates, r_squared=0.331, durbin_watson=2.03, scale=0.02),
-            cointegration=CointegrationTest(
-                method="Engle-Granger", dependent="boxes", variables=("boxes", "fuel"), deterministic="constant",
-                statistic=-4.21, pvalue=0.0037, pvalue_bound=None,
-                critical_values={"1%": -3.99, "5%": -3.38, "10%": -3.07},
-                critical_values_source="MacKinnon (2010), 2 variables, constant", lags=1,
-                lag_rule="AIC, at most 12", nobs=118, rejects=True, significance=0.05,
+            cointegration=engle_granger("boxes", ("boxes", "fuel"), -4.21, 0.0037, rejects=True, lags=1, nobs=118),
+            # The document's order is not the display order: the manifest's normalisation is shown first.
+            engle_granger=(
+                engle_granger("fuel", ("boxes", "fuel"), -3.52, 0.0341, rejects=True, lags=2, nobs=117),
+                engle_granger("boxes", ("boxes", "fuel"), -4.21, 0.0037, rejects=True, lags=1, nobs=118),
             ),
+            johansen=johansen(("boxes", "fuel"), rank=1, trace=(24.1, 2.9), maximum=(21.2, 2.9)),
+            bounds_test=BoundsTestResult(
+                dependent="boxes", regressors=("fuel",), case=3, case_description="unrestricted constant, no trend",
+                lags={"boxes": 2, "fuel": 1}, lag_rule="AIC over ARDL(p, q), p and q at most 4", nobs=116,
+                f_statistic=7.82,
+                critical_values={"10%": (4.04, 4.78), "5%": (4.94, 5.73), "1%": (6.84, 7.84)},
+                critical_values_source="Pesaran, Shin and Smith (2001), Table CI(iii), k = 1",
+                decision="levels relation", significance=0.05,
+                notes=("Asymptotic bounds; the sample has 116 observations.",),
+            ),
+            adjustment_speed=-0.187,
             adjustment_half_life=3.35, r2_exceeds_dw=True, sample_start=dates[0], sample_end=dates[-1],
             notes=("The long-run coefficient standard errors are not valid for inference.",),
         ),
         "wages_on_fuel": RegressionAssessment(
-            name="wages_on_fuel", formula="wages ~ fuel", dependent="wages", regressors=("fuel",),
-            orders={"wages": 1, "fuel": 1}, verdict="spurious-risk", cointegrated=False, flagged=True,
-            trail=("Both variables are I(1).", "Engle-Granger does not reject no cointegration (p = 0.62).",
+            name="wages_on_fuel", formula="wages ~ fuel + boxes", dependent="wages", regressors=("fuel", "boxes"),
+            orders={"wages": 1, "fuel": 1, "boxes": 1}, verdict="spurious-risk", cointegrated=False, flagged=True,
+            trail=("Every variable is I(1).", "Engle-Granger does not reject no cointegration (p = 0.62).",
                    "R² (0.874) exceeds the Durbin-Watson statistic (0.08): the classic spurious-regression sign.",
                    "The regression is re-estimated in first differences."),
-            levels=fit("levels", "wages ~ const + fuel", "wages", [("const", 3.02, 0.11), ("fuel", 1.063, 0.024)],
+            levels=fit("levels", "wages ~ const + fuel + boxes", "wages",
+                       [("const", 3.02, 0.11), ("fuel", 1.063, 0.024), ("boxes", 0.05, 0.04)],
                        levels_dates, r_squared=0.874, durbin_watson=0.08, scale=0.04),
-            differences=fit("differences", "d.wages ~ const + d.fuel", "d.wages",
-                            [("const", 0.0029, 0.0004), ("d.fuel", 0.021, 0.034)], diff_dates,
-                            r_squared=0.004, durbin_watson=1.97, scale=0.004),
-            cointegration=CointegrationTest(
-                method="Engle-Granger", dependent="wages", variables=("wages", "fuel"), deterministic="constant",
-                statistic=-1.71, pvalue=0.6214, pvalue_bound=None,
-                critical_values={"1%": -3.99, "5%": -3.38, "10%": -3.07},
-                critical_values_source="MacKinnon (2010), 2 variables, constant", lags=2,
-                lag_rule="AIC, at most 12", nobs=117, rejects=False, significance=0.05,
+            differences=fit("differences", "d.wages ~ const + d.fuel + d.boxes", "d.wages",
+                            [("const", 0.0029, 0.0004), ("d.fuel", 0.021, 0.034), ("d.boxes", 0.011, 0.02)],
+                            diff_dates, r_squared=0.004, durbin_watson=1.97, scale=0.004),
+            cointegration=engle_granger("wages", ("wages", "fuel", "boxes"), -1.71, 0.6214, rejects=False, lags=2,
+                                        nobs=117),
+            engle_granger=(
+                engle_granger("wages", ("wages", "fuel", "boxes"), -1.71, 0.6214, rejects=False, lags=2, nobs=117),
+                engle_granger("fuel", ("wages", "fuel", "boxes"), -2.02, 0.4733, rejects=False, lags=1, nobs=118),
+                engle_granger("boxes", ("wages", "fuel", "boxes"), -3.95, 0.0412, rejects=True, lags=1, nobs=118,
+                              notes=("With boxes on the left the residuals look stationary.",)),
             ),
+            johansen=johansen(("wages", "fuel", "boxes"), rank=0, trace=(27.3, 9.1, 1.2), maximum=(18.2, 7.9, 1.2)),
+            bounds_test=BoundsTestResult(
+                dependent="wages", regressors=("fuel", "boxes"), case=3,
+                case_description="unrestricted constant, no trend", lags={"wages": 1, "fuel": 0, "boxes": 1},
+                lag_rule="AIC over ARDL(p, q), p and q at most 4", nobs=118, f_statistic=3.71,
+                critical_values={"90%": (3.17, 4.14), "95%": (3.79, 4.85), "99%": (5.15, 6.36)},
+                critical_values_source="Pesaran, Shin and Smith (2001), Table CI(iii), k = 2",
+                decision="inside the bounds", significance=0.05,
+            ),
+            fragile=True,
+            fragile_reason="The order of wages is fragile, and Engle-Granger rejects with boxes on the left only.",
             r2_exceeds_dw=True, sample_start=dates[0], sample_end=dates[-1],
         ),
         "rate_on_boxes": RegressionAssessment(
@@ -369,9 +560,29 @@ def build_results() -> Results:
     )
 
 
+def plain(value: Any) -> Any:
+    """A result value as JSON would give it back (tuples become lists)."""
+    if value is None:
+        return None
+    return json.loads(json.dumps(dataclasses.asdict(value) if dataclasses.is_dataclass(value) else value))
+
+
 def build_document() -> dict[str, Any]:
-    """``results_to_dict`` of the fixture run: exactly what the runner renders."""
-    return results_to_dict(build_results())
+    """``results_to_dict`` of the fixture run, with the series keys the runner adds to it.
+
+    The series entries of results.json carry ``grid``, ``fragile``, ``fragile_reason`` and
+    ``fan_chart`` from each series' verdict; they are set here the same way, whether or not
+    ``results_to_dict`` already writes them.
+    """
+    results = build_results()
+    document = results_to_dict(results)
+    for name, record in results.series.items():
+        verdict = record.verdict
+        document["series"][name]["grid"] = [plain(cell) for cell in verdict.grid]
+        document["series"][name]["fragile"] = verdict.fragile
+        document["series"][name]["fragile_reason"] = verdict.fragile_reason
+        document["series"][name]["fan_chart"] = plain(verdict.fan_chart)
+    return document
 
 
 @pytest.fixture(scope="session")

@@ -10,12 +10,16 @@ import pytest
 from reportgen.render.environment import (
     FILTERS,
     build_environment,
+    fit_heading,
     fmt_bool,
+    fmt_case,
+    fmt_criterion,
     fmt_deterministic,
     fmt_int,
     fmt_level,
     fmt_order,
     fmt_p,
+    fmt_share,
     fmt_stat,
     packaged_templates_dir,
     slugify,
@@ -23,6 +27,7 @@ from reportgen.render.environment import (
     verdict_short,
     verdict_text,
 )
+from reportgen.render.html import footnote_label
 
 
 @pytest.mark.parametrize(
@@ -63,6 +68,27 @@ def test_small_filters() -> None:
     assert fmt_bool(None) == "not tested"
     assert fmt_bool(True) == "yes"
     assert fmt_bool(False) == "no"
+
+
+def test_battery_filters() -> None:
+    assert fmt_share(0.183) == "18.3%"
+    assert fmt_share(0.0) == "0.0%"
+    assert fmt_share(None) == "—"
+    assert fmt_criterion("aic") == "AIC"
+    assert fmt_criterion("t-stat") == "t-stat"
+    assert fmt_criterion("Hannan-Quinn") == "Hannan-Quinn"
+    assert fmt_criterion(None) == "—"
+    assert fmt_case(3) == "case 3"
+    assert fmt_case(None) == "—"
+    assert fit_heading("long-run (dynamic OLS)") == "Long-run relation (dynamic OLS)"
+    assert fit_heading("long-run") == "Long-run relation"
+    assert fit_heading("error_correction") == "Error-correction model"
+    assert fit_heading("first_stage") == "First stage"
+
+
+def test_footnote_labels() -> None:
+    assert [footnote_label(index) for index in (0, 1, 25, 26, 27, 51, 52)] == [
+        "a", "b", "z", "aa", "ab", "az", "ba"]
 
 
 def test_every_verdict_has_words() -> None:

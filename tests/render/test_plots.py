@@ -15,8 +15,35 @@ REFERENCE = re.compile(r'url\(#([^)]+)\)|href="#([^"]+)"')
 
 def test_every_series_and_regression_has_a_chart(document: dict[str, Any], plots: dict[str, str]) -> None:
     expected = {f"series:{name}" for name in document["series"]}
+    expected |= {f"fan:{name}" for name, body in document["series"].items() if body["fan_chart"]}
     expected |= {f"regression:{name}" for name in document["regressions"]}
     assert set(plots) == expected
+    assert {key for key in plots if key.startswith("fan:")} == {"fan:boxes", "fan:fuel", "fan:wages", "fan:cpi"}
+
+
+def test_fan_chart_shows_bands_median_and_observed_path(document: dict[str, Any], plots: dict[str, str]) -> None:
+    svg = plots["fan:wages"]
+    for label in ("5–95% band", "25–75% band", "median path", "observed", "simulated random walks"):
+        assert label in svg
+    dates = document["series"]["wages"]["fan_chart"]["dates"]
+    assert f">{dates[0]}<" in svg
+    assert f">{dates[-1]}<" in svg
+    assert 'aria-label="Fan chart of series wages' in svg
+    # The two bands are filled areas in their own tints (each also in the legend).
+    assert svg.count('fill="#d6e2ec"') >= 2
+    assert svg.count('fill="#9dbad0"') >= 2
+
+
+def test_fan_chart_is_left_out_without_usable_bands(document: dict[str, Any]) -> None:
+    document["series"]["boxes"]["fan_chart"]["bands"] = {}
+    document["series"]["fuel"]["fan_chart"]["bands"]["5%"] = [1.0]  # not the length of the dates
+    document["series"]["cpi"]["fan_chart"] = None
+    charts = render_plots(document)
+    assert "fan:boxes" not in charts
+    assert "fan:cpi" not in charts
+    assert "fan:fuel" in charts  # the other bands still draw
+    assert "5–95% band" not in charts["fan:fuel"]
+    assert "25–75% band" in charts["fan:fuel"]
 
 
 def test_charts_are_inline_svg(plots: dict[str, str]) -> None:
@@ -53,9 +80,12 @@ def test_plots_are_deterministic(document: dict[str, Any], plots: dict[str, str]
 
 def test_a_chart_does_not_depend_on_the_charts_drawn_before_it(document: dict[str, Any],
                                                                 plots: dict[str, str]) -> None:
-    for name in ("survey", "cpi", "rate"):
+    for name in ("survey", "cpi", "rate", "wages"):
         alone = dict(document, series={name: document["series"][name]}, regressions={})
-        assert render_plots(alone)[f"series:{name}"] == plots[f"series:{name}"]
+        charts = render_plots(alone)
+        assert charts[f"series:{name}"] == plots[f"series:{name}"]
+        if f"fan:{name}" in plots:
+            assert charts[f"fan:{name}"] == plots[f"fan:{name}"]
     for name in ("survey_on_boxes", "boxes_on_fuel"):
         alone = dict(document, series={}, regressions={name: document["regressions"][name]})
         assert render_plots(alone)[f"regression:{name}"] == plots[f"regression:{name}"]
@@ -73,8 +103,10 @@ def test_ids_are_unique_across_all_charts_and_references_resolve(plots: dict[str
 
 
 def test_identical_data_gives_distinct_ids(document: dict[str, Any]) -> None:
-    document["series"]["copy"] = copy.deepcopy(document["series"]["boxes"])
+    document["series"] = {"boxes": document["series"]["boxes"], "copy": copy.deepcopy(document["series"]["boxes"])}
+    document["regressions"] = {}
     charts = render_plots(document)
+    assert set(ID.findall(charts["fan:boxes"])).isdisjoint(ID.findall(charts["fan:copy"]))
     first, second = set(ID.findall(charts["series:boxes"])), set(ID.findall(charts["series:copy"]))
     assert first
     assert second
@@ -86,17 +118,25 @@ def test_missing_values_and_empty_series(document: dict[str, Any]) -> None:
     values[5] = None
     document["series"]["empty"] = dict(document["series"]["rate"], data={"dates": [], "values": []})
     document["series"]["single"] = dict(document["series"]["rate"], data={"dates": ["2010-01"], "values": [1.0]})
+    document["series"]["gap"] = copy.deepcopy(document["series"]["wages"])
+    document["series"]["gap"]["data"]["values"][7] = None
+    document["series"]["gap"]["fan_chart"]["bands"]["50%"][3] = None
+    document["regressions"] = {}
     charts = render_plots(document)
+    assert "observed" in charts["fan:gap"]
     assert "no observations" in charts["series:empty"]
     assert "a single observation has no difference" in charts["series:single"]
 
 
 def test_regression_without_residuals_has_no_chart(document: dict[str, Any]) -> None:
     document["regressions"]["survey_on_boxes"]["levels"] = None
+    document["series"] = {}
     assert "regression:survey_on_boxes" not in render_plots(document)
 
 
 def test_text_from_the_document_is_escaped_and_not_parsed_as_math(document: dict[str, Any]) -> None:
+    document["series"] = {"rate": document["series"]["rate"]}
+    document["regressions"] = {}
     document["series"]["rate"]["label"] = "<script>alert(1)</script> & $x^2$"
     svg = render_plots(document)["series:rate"]
     assert "<script" not in svg

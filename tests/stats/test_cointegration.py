@@ -19,6 +19,7 @@ from reportgen.stats import cointegration
 from reportgen.stats.cointegration import (
     ENGLE_GRANGER_CRITICAL_VALUES_SOURCE,
     engle_granger,
+    engle_granger_all,
     engle_granger_critical_values,
     engle_granger_pvalue,
     schwert_max_lags,
@@ -330,3 +331,55 @@ def test_library_warnings_are_kept_in_the_notes(monkeypatch: pytest.MonkeyPatch)
         warnings.simplefilter("error")
         result = engle_granger(_cointegrated_pair(0), "y", ["x"], significance=0.05)
     assert "UserWarning: a library remark" in result.notes
+
+
+# --- every normalisation -------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize("lags", [None, 2])
+def test_every_normalisation_of_a_pair_agrees_with_statsmodels(lags: int | None) -> None:
+    # REFERENCES §2: Engle-Granger results depend on which variable is on the left; statsmodels
+    # coint(y0, y1) puts its first argument on the left and computes the same statistic (§9).
+    data = _cointegrated_pair(6, nobs=150)
+    results = engle_granger_all(data, ["y", "x"], significance=0.05, lags=lags)
+    assert [result.dependent for result in results] == ["y", "x"]
+    assert [result.variables for result in results] == [("y", "x"), ("x", "y")]
+    for result, (left, right) in zip(results, [("y", "x"), ("x", "y")], strict=True):
+        # MacKinnon (2010) N = 2 for both directions, at each regression's own T.
+        assert result.critical_values == engle_granger_critical_values(2, "constant", result.nobs)
+        assert "N=2" in result.critical_values_source
+        if lags is None:
+            reference = coint(data[left], data[right], trend="c", maxlag=schwert_max_lags(150), autolag="aic")
+        else:
+            reference = coint(data[left], data[right], trend="c", maxlag=lags, autolag=None)
+        assert result.statistic == pytest.approx(reference[0], abs=1e-8)
+    assert results[0].statistic != pytest.approx(results[1].statistic, abs=1e-6)  # the directions differ
+
+
+def test_every_normalisation_of_three_variables_keeps_the_order_and_n() -> None:
+    rng = np.random.default_rng(12)
+    nobs = 160
+    a = np.cumsum(rng.standard_normal(nobs))
+    b = np.cumsum(rng.standard_normal(nobs))
+    data = _frame({"a": a, "b": b, "c": a - 0.5 * b + rng.standard_normal(nobs)})
+    results = engle_granger_all(data, ["b", "a", "c"], significance=0.10, deterministic="constant-trend", lags=1)
+    assert [result.variables for result in results] == [("b", "a", "c"), ("a", "b", "c"), ("c", "b", "a")]
+    for result in results:
+        # MacKinnon (2010) N = 3, Table 3 (constant and trend).
+        assert result.critical_values == engle_granger_critical_values(3, "constant-trend", result.nobs)
+        single = engle_granger(
+            data, result.dependent, list(result.variables[1:]), significance=0.10,
+            deterministic="constant-trend", lags=1,
+        )
+        assert single == result
+        reference = coint(data[result.dependent], data[list(result.variables[1:])], trend="ct", maxlag=1, autolag=None)
+        assert result.statistic == pytest.approx(reference[0], abs=1e-8)
+        assert result.rejects  # c = a - 0.5 b + white noise cointegrates the three
+
+
+def test_every_normalisation_refuses_fewer_than_two_or_repeated_variables() -> None:
+    data = _independent_walks(0)
+    with pytest.raises(ValueError, match="at least two variables, not 1"):
+        engle_granger_all(data, ["y"], significance=0.05)
+    with pytest.raises(DataError, match="a variable appears twice in y, x, y"):
+        engle_granger_all(data, ["y", "x", "y"], significance=0.05)

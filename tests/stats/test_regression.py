@@ -7,7 +7,7 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from scipy import stats as scipy_stats
 
@@ -91,7 +91,10 @@ def _newey_west_t(y: np.ndarray, X: np.ndarray, lags: int) -> np.ndarray:
 
 def test_verdict_rule_covers_every_verdict_in_sentences() -> None:
     text = " ".join(VERDICT_RULE)
-    for word in ("stationary", "cointegrated", "spurious-risk", "unbalanced", "inconclusive", "flagged"):
+    for word in (
+        "stationary", "cointegrated", "spurious-risk", "unbalanced", "inconclusive", "flagged", "fragile",
+        "every normalisation", "Johansen", "bounds test", "dynamic OLS", "RESET", "Breusch-Pagan", "1e10",
+    ):
         assert word in text
     assert all(sentence[0].isupper() and sentence.endswith(".") for sentence in VERDICT_RULE)
 
@@ -181,9 +184,24 @@ def test_cointegrated_pair_gives_error_correction_model() -> None:
     assert assessment.differences is None
     long_run = assessment.long_run
     assert long_run is not None
-    assert long_run.role == "long-run"
+    assert long_run.role == "long-run (dynamic OLS)"
+    assert [c.term for c in long_run.coefficients] == ["const", "x"]
+    assert long_run.equation.startswith("y ~ const + x + ")
+    assert "d.x" in long_run.equation
     assert _term(long_run, "x").estimate == pytest.approx(2.0, abs=0.1)
-    assert any("dynamic OLS" in note for note in long_run.notes)
+    assert any("Dynamic OLS (Stock and Watson 1993)" in note for note in long_run.notes)
+    assert assessment.levels is not None
+    assert any("dynamic OLS long-run fit gives valid ones" in note for note in assessment.levels.notes)
+    # Every normalisation, the regression as written first; Johansen on the same pair.
+    assert [test.dependent for test in assessment.engle_granger] == ["y", "x"]
+    assert assessment.engle_granger[0] == assessment.cointegration
+    assert assessment.johansen is not None
+    assert assessment.johansen.variables == ("y", "x")
+    assert assessment.johansen.case == 3
+    assert assessment.johansen.rank == 1
+    assert not assessment.fragile
+    assert assessment.fragile_reason is None
+    assert assessment.bounds_test is None
     ecm = assessment.error_correction
     assert ecm is not None
     assert ecm.role == "error-correction"
@@ -193,6 +211,7 @@ def test_cointegrated_pair_gives_error_correction_model() -> None:
     alpha = _term(ecm, "ec(-1)")
     assert -0.8 < alpha.estimate < -0.25
     assert alpha.pvalue < 0.05
+    assert assessment.adjustment_speed == alpha.estimate
     assert _term(ecm, "d.x").estimate == pytest.approx(2.0, abs=0.2)
     half_life = assessment.adjustment_half_life
     assert half_life is not None
@@ -203,6 +222,8 @@ def test_cointegrated_pair_gives_error_correction_model() -> None:
     assert "Engle-Granger (y on x, constant): statistic" in trail
     assert "cointegration at 5%" in trail
     assert "Verdict cointegrated" in trail
+    assert "Engle-Granger (x on y, constant): statistic" in trail
+    assert "Johansen's trace test confirms cointegration (rank 1)." in assessment.trail
     assert "half of a deviation" in trail
 
 
@@ -318,7 +339,9 @@ def test_too_short_for_engle_granger_is_inconclusive() -> None:
     assert "needs at least 22 observations" in _trail(assessment)
 
 
-def test_stationary_regressor_enters_error_correction_model_in_levels() -> None:
+def test_mixed_regressors_with_a_levels_relation_are_cointegrated_by_the_bounds_test() -> None:
+    # DGP: y = 1 + 2x + 0.5z + u with x a random walk, z and u stationary: a levels relation, so
+    # the bounds test (Pesaran, Shin and Smith 2001) must find F above the I(1) bound (design).
     rng = np.random.default_rng(16)
     nobs = 200
     x = np.cumsum(rng.standard_normal(nobs))
@@ -326,15 +349,91 @@ def test_stationary_regressor_enters_error_correction_model_in_levels() -> None:
     data = _frame({"y": 1.0 + 2.0 * x + 0.5 * z + _ar1(rng, nobs, 0.4), "x": x, "z": z})
     assessment = _assess(data, "y", ["x", "z"], {"y": 1, "x": 1, "z": 0})
     assert assessment.verdict == "cointegrated"
-    assert assessment.cointegration is not None
-    assert assessment.cointegration.variables == ("y", "x")
+    assert assessment.cointegrated is True
+    bounds = assessment.bounds_test
+    assert bounds is not None
+    assert bounds.decision == "levels relation"
+    assert bounds.regressors == ("x", "z")
+    assert bounds.case == 3
+    assert bounds.f_statistic > bounds.critical_values["95%"][1]
+    assert assessment.cointegration is None
+    assert assessment.engle_granger == ()
+    assert assessment.johansen is None
     assert assessment.long_run is not None
-    assert assessment.long_run.equation == "y ~ const + x"
+    assert assessment.long_run.role == "long-run (dynamic OLS)"
+    assert [c.term for c in assessment.long_run.coefficients] == ["const", "x"]
+    assert _term(assessment.long_run, "x").estimate == pytest.approx(2.0, abs=0.1)
     assert assessment.levels is not None
     assert assessment.levels.equation == "y ~ const + x + z"
     assert assessment.error_correction is not None
     assert assessment.error_correction.equation == "d.y ~ const + ec(-1) + d.x + z + d.y(-1) + d.x(-1)"
-    assert "The I(0) regressor z is left out of the cointegrating regression." in assessment.trail
+    trail = _trail(assessment)
+    assert "the ARDL bounds test, valid for either order, decides" in trail
+    assert "Bounds test (Pesaran, Shin and Smith 2001, case III; y on x, z" in trail
+    assert "z enters the error-correction model in levels" in trail
+
+
+def test_mixed_regressors_without_a_levels_relation_are_spurious_risk() -> None:
+    # y and x independent random walks, z white noise: no levels relation (design).
+    rng = np.random.default_rng(0)
+    nobs = 200
+    data = _frame({
+        "y": np.cumsum(rng.standard_normal(nobs)),
+        "x": np.cumsum(rng.standard_normal(nobs)),
+        "z": rng.standard_normal(nobs),
+    })
+    assessment = _assess(data, "y", ["x", "z"], {"y": 1, "x": 1, "z": 0})
+    assert assessment.bounds_test is not None
+    assert assessment.bounds_test.decision == "no levels relation"
+    assert assessment.verdict == "spurious-risk"
+    assert assessment.cointegrated is False
+    assert assessment.flagged
+    assert assessment.long_run is None
+    assert assessment.differences is not None
+    assert assessment.differences.equation == "d.y ~ const + d.x + z"
+    assert "Verdict spurious-risk: the bounds test finds no levels relation at 5%" in _trail(assessment)
+
+
+def test_bounds_test_inside_the_bounds_is_inconclusive(monkeypatch: pytest.MonkeyPatch) -> None:
+    # The combination logic: an F statistic between the bounds leaves the verdict open.
+    import dataclasses
+
+    from reportgen.stats import regression
+
+    original = regression.bounds_test
+
+    def inside(*args, **kwargs):
+        return dataclasses.replace(original(*args, **kwargs), decision="inside the bounds")
+
+    monkeypatch.setattr(regression, "bounds_test", inside)
+    rng = np.random.default_rng(16)
+    nobs = 200
+    x = np.cumsum(rng.standard_normal(nobs))
+    z = rng.standard_normal(nobs)
+    data = _frame({"y": 1.0 + 2.0 * x + 0.5 * z + _ar1(rng, nobs, 0.4), "x": x, "z": z})
+    assessment = _assess(data, "y", ["x", "z"], {"y": 1, "x": 1, "z": 0})
+    assert assessment.verdict == "inconclusive"
+    assert assessment.flagged
+    assert assessment.cointegrated is None
+    assert assessment.long_run is None
+    assert assessment.differences is None
+    assert "Verdict inconclusive: the F statistic lies between the bounds" in _trail(assessment)
+
+
+def test_i2_with_stationary_regressor_is_inconclusive() -> None:
+    rng = np.random.default_rng(18)
+    nobs = 150
+    x = np.cumsum(np.cumsum(rng.standard_normal(nobs)))
+    z = rng.standard_normal(nobs)
+    data = _frame({"y": x + z + rng.standard_normal(nobs), "x": x, "z": z})
+    assessment = _assess(data, "y", ["x", "z"], {"y": 2, "x": 2, "z": 0})
+    assert assessment.verdict == "inconclusive"
+    assert assessment.bounds_test is None
+    assert assessment.engle_granger == ()
+    assert (
+        "Verdict inconclusive: y and x are I(2) while z is I(0); the bounds test assumes no I(2) variable"
+        in _trail(assessment)
+    )
 
 
 def test_i2_cointegration_uses_second_differences() -> None:
@@ -455,24 +554,231 @@ def test_dependent_among_regressors_is_refused() -> None:
         _assess(data, "y", ["y"], {"y": 1})
 
 
-@settings(derandomize=True, max_examples=10, deadline=None)
-@given(
-    scale_y=st.floats(min_value=1e-2, max_value=1e2),
-    scale_x=st.floats(min_value=1e-2, max_value=1e2),
-)
-def test_rescaling_leaves_statistics_and_verdict_unchanged(scale_y: float, scale_x: float) -> None:
-    # Common practice: t-statistics, R², DW and the Engle-Granger statistic do not depend on units.
-    data = _cointegrated_pair(6, nobs=120)
-    base = _assess(data, "y", ["x"], {"y": 1, "x": 1})
-    scaled = _assess(data.assign(y=data["y"] * scale_y, x=data["x"] * scale_x), "y", ["x"], {"y": 1, "x": 1})
+def _fits(assessment: RegressionAssessment) -> list[Fit]:
+    return [
+        fit
+        for fit in (assessment.levels, assessment.differences, assessment.long_run, assessment.error_correction)
+        if fit is not None
+    ]
+
+
+_SCALES = st.sampled_from([1e-6, 1e-3, 0.37, 1.0, 42.0, 1e3, 1e6])
+
+
+def _rescaling_case(case: str) -> tuple[pd.DataFrame, list[str], dict[str, int]]:
+    if case == "walks":
+        rng = np.random.default_rng(31)
+        data = _frame({"y": np.cumsum(rng.standard_normal(120)), "x": np.cumsum(rng.standard_normal(120))})
+        return data, ["x"], {"y": 1, "x": 1}
+    if case == "mixed":
+        rng = np.random.default_rng(32)
+        x = np.cumsum(rng.standard_normal(150))
+        z = rng.standard_normal(150)
+        data = _frame({"y": 3.0 + 0.8 * x + 0.5 * z + _ar1(rng, 150, 0.3), "x": x, "z": z})
+        return data, ["x", "z"], {"y": 1, "x": 1, "z": 0}
+    return _cointegrated_pair(6, nobs=120), ["x"], {"y": 1, "x": 1}
+
+
+@settings(derandomize=True, max_examples=12, deadline=None)
+@given(scale_y=_SCALES, scale_x=_SCALES, case=st.sampled_from(["pair", "walks", "mixed"]))
+@example(scale_y=1e6, scale_x=1e-6, case="pair")
+@example(scale_y=1e-6, scale_x=1e6, case="walks")
+@example(scale_y=1e6, scale_x=1e6, case="mixed")
+def test_rescaling_leaves_statistics_and_verdict_unchanged(scale_y: float, scale_x: float, case: str) -> None:
+    # Common practice: t-statistics, p-values, R², DW, residual diagnostics and the cointegration
+    # statistics do not depend on the units of the variables; neither does the verdict.
+    data, regressors, orders = _rescaling_case(case)
+    base = _assess(data, "y", regressors, orders)
+    scaled_data = data.assign(y=data["y"] * scale_y, x=data["x"] * scale_x)
+    if "z" in data:
+        scaled_data["z"] = data["z"] * scale_x * 1e-3
+    scaled = _assess(scaled_data, "y", regressors, orders)
     assert scaled.verdict == base.verdict
-    assert scaled.cointegration is not None
-    assert base.cointegration is not None
-    assert scaled.cointegration.statistic == pytest.approx(base.cointegration.statistic, rel=1e-7)
-    assert scaled.levels is not None
-    assert base.levels is not None
-    assert _term(scaled.levels, "x").t_statistic == pytest.approx(_term(base.levels, "x").t_statistic, rel=1e-7)
-    assert scaled.levels.r_squared == pytest.approx(base.levels.r_squared, rel=1e-9)
+    assert scaled.fragile == base.fragile
+    assert [t.statistic for t in scaled.engle_granger] == pytest.approx(
+        [t.statistic for t in base.engle_granger], rel=1e-7
+    )
+    if base.johansen is not None:
+        assert scaled.johansen is not None
+        assert [step.statistic for step in scaled.johansen.trace] == pytest.approx(
+            [step.statistic for step in base.johansen.trace], rel=1e-6
+        )
+    if base.bounds_test is not None:
+        assert scaled.bounds_test is not None
+        assert scaled.bounds_test.f_statistic == pytest.approx(base.bounds_test.f_statistic, rel=1e-6)
+        assert scaled.bounds_test.lags == base.bounds_test.lags
+    base_fits, scaled_fits = _fits(base), _fits(scaled)
+    assert [fit.role for fit in scaled_fits] == [fit.role for fit in base_fits]
+    assert len(base_fits) >= 2
+    for before, after in zip(base_fits, scaled_fits, strict=True):
+        assert after.equation == before.equation
+        assert [c.t_statistic for c in after.coefficients] == pytest.approx(
+            [c.t_statistic for c in before.coefficients], rel=1e-6
+        )
+        assert [c.pvalue for c in after.coefficients] == pytest.approx(
+            [c.pvalue for c in before.coefficients], rel=1e-6, abs=1e-300
+        )
+        assert after.r_squared == pytest.approx(before.r_squared, rel=1e-9)
+        assert after.durbin_watson == pytest.approx(before.durbin_watson, rel=1e-9)
+        assert [d.name for d in after.diagnostics] == [d.name for d in before.diagnostics]
+        assert [d.statistic for d in after.diagnostics] == pytest.approx(
+            [d.statistic for d in before.diagnostics], rel=1e-6
+        )
+        assert [d.pvalue for d in after.diagnostics] == pytest.approx(
+            [d.pvalue for d in before.diagnostics], rel=1e-6, abs=1e-12
+        )
+
+
+def test_residuals_are_computed_from_the_fitted_equation_and_equal_the_librarys() -> None:
+    # reportgen computes y - X b itself; statsmodels' OLS residuals on the same design must agree.
+    from statsmodels.regression.linear_model import OLS
+
+    data = _cointegrated_pair(0)
+    assessment = _assess(data, "y", ["x"], {"y": 1, "x": 1})
+    fits = _fits(assessment)
+    assert [fit.role for fit in fits] == ["levels", "long-run (dynamic OLS)", "error-correction"]
+    ecm = assessment.error_correction
+    assert ecm is not None
+    X = np.column_stack([np.ones(len(data)), data["x"].to_numpy()])
+    library = OLS(data["y"].to_numpy(), X).fit()
+    assert assessment.levels is not None
+    assert np.asarray(assessment.levels.residuals) == pytest.approx(np.asarray(library.resid), abs=1e-10)
+    # The error-correction model rebuilt by hand from its equation.
+    y, x = data["y"].to_numpy(), data["x"].to_numpy()
+    ec = np.asarray(library.resid)
+    dy, dx = np.diff(y), np.diff(x)
+    design = np.column_stack([np.ones(len(dy) - 1), ec[1:-1], dx[1:], dy[:-1], dx[:-1]])
+    library_ecm = OLS(dy[1:], design).fit()
+    assert np.asarray(ecm.residuals) == pytest.approx(np.asarray(library_ecm.resid), abs=1e-10)
+    assert [c.estimate for c in ecm.coefficients] == pytest.approx(np.asarray(library_ecm.params), rel=1e-9)
+
+
+def test_every_fit_records_its_covariance_settings() -> None:
+    data = _cointegrated_pair(0)
+    for fit in _fits(_assess(data, "y", ["x"], {"y": 1, "x": 1})):
+        assert fit.hac_kernel == "Bartlett"
+        assert fit.hac_bandwidth == newey_west_lags(fit.nobs)
+        assert fit.hac_bandwidth_rule == "int(4 (T/100)^(2/9))"
+        assert fit.small_sample_correction is True
+        k = fit.equation.count(" + ") + 1
+        assert f"T/(T-k) = {fit.nobs}/{fit.nobs - k}" in fit.covariance
+        assert f"t distribution with {fit.nobs - k} degrees of freedom" in fit.covariance
+
+
+def test_near_singular_design_raises_data_error_naming_the_columns() -> None:
+    # x2 differs from x by about 1e-12 of its length: full rank, condition number far above 1e10.
+    data = _cointegrated_pair(3)
+    rng = np.random.default_rng(5)
+    data["x2"] = data["x"] + 1e-11 * rng.standard_normal(len(data))
+    data["w"] = rng.standard_normal(len(data))
+    with pytest.raises(DataError) as caught:
+        _assess(data, "y", ["x", "w", "x2"], {"y": 0, "x": 0, "w": 0, "x2": 0})
+    message = str(caught.value)
+    assert message.startswith(
+        "regression 'r1': the regressors of the levels fit are nearly collinear: x, x2 (condition number "
+    )
+    assert message.endswith("after scaling each column to unit length, above 1e+10)")
+    assert caught.value.hint == "drop one of these regressors or change its transform"
+
+
+# --- combining the cointegration tests ---------------------------------------------------------
+
+
+def _tests_and_johansen(seed: int = 0):
+    from reportgen.stats.cointegration import engle_granger_all
+    from reportgen.stats.johansen import johansen
+
+    data = _cointegrated_pair(seed)
+    tests = engle_granger_all(data, ["y", "x"], significance=0.05)
+    return tests, johansen(data, ["y", "x"], significance=0.05)
+
+
+def test_cointegration_decision_agreement_is_not_fragile() -> None:
+    from reportgen.stats.regression import _cointegration_decision
+
+    tests, rank_test = _tests_and_johansen()
+    assert [test.rejects for test in tests] == [True, True]
+    assert rank_test.rank == 1
+    cointegrated, sentences, reasons = _cointegration_decision(tests, rank_test)
+    assert cointegrated is True
+    assert reasons == []
+    assert "Johansen's trace test confirms cointegration (rank 1)." in sentences
+
+
+def test_cointegration_decision_names_each_disagreement() -> None:
+    import dataclasses
+
+    from reportgen.stats.regression import _cointegration_decision
+
+    tests, rank_test = _tests_and_johansen()
+    disagreeing = (tests[0], dataclasses.replace(tests[1], rejects=False))
+    cointegrated, _, reasons = _cointegration_decision(disagreeing, rank_test)
+    assert cointegrated is True  # the regression as written still decides
+    assert reasons == [
+        "the Engle-Granger normalisations disagree: with y on the left the test finds cointegration, "
+        "with x on the left it finds none"
+    ]
+    not_first = (dataclasses.replace(tests[0], rejects=False), tests[1])
+    cointegrated, _, reasons = _cointegration_decision(not_first, dataclasses.replace(rank_test, rank=0))
+    assert cointegrated is False
+    assert reasons == [
+        "the Engle-Granger normalisations disagree: with y on the left the test finds none, with x on the "
+        "left it finds cointegration"
+    ]
+    cointegrated, _, reasons = _cointegration_decision(tests, dataclasses.replace(rank_test, rank=0))
+    assert cointegrated is True
+    assert reasons == [
+        "Johansen's trace test finds rank 0 while the Engle-Granger test of the regression as written "
+        "finds cointegration"
+    ]
+    _, _, reasons = _cointegration_decision(tests, dataclasses.replace(rank_test, rank=2))
+    assert reasons == [
+        "Johansen's trace test finds full rank 2, which says every variable is stationary, at odds with "
+        "their orders of integration"
+    ]
+
+
+def test_disagreeing_normalisations_mark_the_assessment_fragile(monkeypatch: pytest.MonkeyPatch) -> None:
+    import dataclasses
+
+    from reportgen.stats import regression
+
+    original = regression.engle_granger_all
+
+    def disagreeing(*args, **kwargs):
+        first, *others = original(*args, **kwargs)
+        return (first, *(dataclasses.replace(test, rejects=False) for test in others))
+
+    monkeypatch.setattr(regression, "engle_granger_all", disagreeing)
+    assessment = _assess(_cointegrated_pair(0), "y", ["x"], {"y": 1, "x": 1})
+    assert assessment.verdict == "cointegrated"
+    assert assessment.fragile
+    assert assessment.fragile_reason == (
+        "the Engle-Granger normalisations disagree: with y on the left the test finds cointegration, "
+        "with x on the left it finds none"
+    )
+    assert (
+        "Fragile: the Engle-Granger normalisations disagree: with y on the left the test finds "
+        "cointegration, with x on the left it finds none. The Engle-Granger test of the regression as "
+        "written still decides."
+    ) in assessment.trail
+
+
+def test_fragile_orders_mark_the_assessment_fragile() -> None:
+    data = _cointegrated_pair(0)
+    assessment = assess_regression(
+        "r1", "y ~ x", "y", ["x"], data, {"y": 1, "x": 1}, SETTINGS,
+        fragile_orders={"x": "ADF with BIC lags gives I(0)", "unrelated": "not in this regression"},
+    )
+    assert assessment.verdict == "cointegrated"
+    assert assessment.fragile
+    assert assessment.fragile_reason == "the order of integration of x is fragile (ADF with BIC lags gives I(0))"
+    assert (
+        "Fragile: the order of integration of x is fragile (ADF with BIC lags gives I(0)). The verdict uses "
+        "the orders as decided."
+    ) in assessment.trail
+    plain = _assess(data, "y", ["x"], {"y": 1, "x": 1})
+    assert not plain.fragile
 
 
 def test_library_warnings_are_kept_in_the_notes(monkeypatch: pytest.MonkeyPatch) -> None:
