@@ -197,7 +197,7 @@ def test_cointegrated_pair_gives_error_correction_model() -> None:
     assert assessment.engle_granger[0] == assessment.cointegration
     assert assessment.johansen is not None
     assert assessment.johansen.variables == ("y", "x")
-    assert assessment.johansen.case == 3
+    assert assessment.johansen.case == 2  # a driftless pair: constant restricted to the relation
     assert assessment.johansen.rank == 1
     assert not assessment.fragile
     assert assessment.fragile_reason is None
@@ -799,3 +799,20 @@ def test_library_warnings_are_kept_in_the_notes(monkeypatch: pytest.MonkeyPatch)
         assessment = _assess(_cointegrated_pair(8), "y", ["x"], {"y": 0, "x": 0})
     assert assessment.levels is not None
     assert "UserWarning: a library remark" in assessment.levels.notes
+
+
+def test_johansen_case_follows_the_drift() -> None:
+    # Common practice: a drifting random walk calls for an unrestricted constant (case 3),
+    # driftless walks for a constant restricted to the cointegrating relation (case 2).
+    from reportgen.stats.regression import johansen_case
+
+    rng = np.random.default_rng(31)
+    index = pd.period_range("2000-01", periods=300, freq="M")
+    still = pd.DataFrame({"a": np.cumsum(rng.standard_normal(300)), "b": np.cumsum(rng.standard_normal(300))},
+                         index=index)
+    case, reason = johansen_case(still, ["a", "b"], 0.05)
+    assert case == 2
+    assert reason.startswith("Johansen case 2 (constant restricted to the cointegrating relation)")
+    drifting = still.assign(a=still["a"] + 0.5 * np.arange(300))
+    case, reason = johansen_case(drifting, ["a", "b"], 0.05)
+    assert (case, reason.split(":")[1].strip().split(" ")[0]) == (3, "a")
