@@ -186,7 +186,10 @@ def battery_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
     Every rule and source text becomes a lettered footnote (each distinct text once), so the
     table stays narrow however many tests share a rule.
     """
-    tests = [_complete(test, _TEST_FIELDS) for test in _mappings(series.get("tests"))]
+    every = [_complete(test, _TEST_FIELDS) for test in _mappings(series.get("tests"))]
+    # Auxiliary runs (the robustness grid's and the deterministic-terms choice's) are summarised by
+    # the grid and the trail; listing dozens of them would bury the tests that decided the order.
+    tests = [test for test in every if test["auxiliary"] is not True]
     if not tests:
         return None
     chosen = series.get("deterministic") if isinstance(series.get("deterministic"), Mapping) else {}
@@ -218,7 +221,7 @@ def battery_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
         "columns": 7 + len(levels) + int(has_bandwidth) + int(has_breaks),
         "has_bandwidth": has_bandwidth,
         "has_breaks": has_breaks,
-        "has_auxiliary": any(test["auxiliary"] is True for test in tests),
+        "auxiliary_count": len(every) - len(tests),
         "significance": next((test["significance"] for test in tests if test["significance"] is not None), None),
     }
 

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from reportgen.stats.order import DECISION_RULE, DETERMINISTIC_RULE
+from reportgen.stats.order import DECISION_RULE, DETERMINISTIC_RULE, GRID_RULE
 from reportgen.stats.regression import VERDICT_RULE
 
 TESTS: tuple[dict[str, str], ...] = (
@@ -30,12 +30,13 @@ TESTS: tuple[dict[str, str], ...] = (
         "null_hypothesis": "the series is stationary (around a constant, or around a linear trend)",
         "description": (
             "The partial sums of the residuals from a regression on a constant (or a constant and a trend), "
-            "scaled by a long-run variance estimated with Bartlett weights and an automatically chosen "
-            "bandwidth (Hobijn, Franses and Ooms 1998). Critical values are those of Kwiatkowski, Phillips, "
-            "Schmidt and Shin (1992, Table 1); p-values are interpolated in that table and shown as bounds "
-            "outside it (below 0.01 or above 0.10)."
+            "scaled by a long-run variance estimated with Bartlett weights and the short bandwidth "
+            "int(4 (T/100)^(1/4)) that Kwiatkowski, Phillips, Schmidt and Shin (1992) report (from memory); "
+            "a data-dependent bandwidth grows with persistence and costs the test its power against a unit "
+            "root. Critical values are those of Kwiatkowski, Phillips, Schmidt and Shin (1992, Table 1); "
+            "p-values are interpolated in that table and shown as bounds outside it (below 0.01 or above 0.10)."
         ),
-        "reference": "Kwiatkowski, Phillips, Schmidt and Shin (1992); Hobijn, Franses and Ooms (1998)",
+        "reference": "Kwiatkowski, Phillips, Schmidt and Shin (1992)",
     },
     {
         "name": "Phillips-Perron (PP)",
@@ -163,19 +164,23 @@ REFERENCES: tuple[str, ...] = (
     "variation. Econometrica 47.",
     "Dickey, D. A. and Pantula, S. G. (1987). Determining the order of differencing in autoregressive "
     "processes. Journal of Business and Economic Statistics 5.",
+    "Dickey, D. A. and Fuller, W. A. (1981). Likelihood ratio statistics for autoregressive time series with "
+    "a unit root. Econometrica 49.",
     "Dickey, D. A. and Fuller, W. A. (1979). Distribution of the estimators for autoregressive time series with a "
     "unit root. Journal of the American Statistical Association 74.",
+    "Dolado, J. J., Jenkinson, T. and Sosvilla-Rivero, S. (1990). Cointegration and unit roots. Journal of "
+    "Economic Surveys 4.",
     "Durbin, J. and Watson, G. S. (1950). Testing for serial correlation in least squares regression I. "
     "Biometrika 37.",
     "Elliott, G., Rothenberg, T. J. and Stock, J. H. (1996). Efficient tests for an autoregressive unit root. "
     "Econometrica 64.",
+    "Elder, J. and Kennedy, P. E. (2001). Testing for unit roots: what should students be taught? Journal "
+    "of Economic Education 32.",
     "Engle, R. F. and Granger, C. W. J. (1987). Co-integration and error correction: representation, estimation "
     "and testing. Econometrica 55.",
     "Godfrey, L. G. (1978). Testing against general autoregressive and moving average error models when the "
     "regressors include lagged dependent variables. Econometrica 46.",
     "Granger, C. W. J. and Newbold, P. (1974). Spurious regressions in econometrics. Journal of Econometrics 2.",
-    "Hobijn, B., Franses, P. H. and Ooms, M. (1998). Generalisations of the KPSS-test for stationarity. "
-    "Econometric Institute Report 9802, Erasmus University Rotterdam.",
     "Johansen, S. (1988). Statistical analysis of cointegration vectors. Journal of Economic Dynamics and "
     "Control 12.",
     "Johansen, S. (1991). Estimation and hypothesis testing of cointegration vectors in Gaussian vector "
@@ -219,6 +224,7 @@ def methods_text() -> dict[str, Any]:
     return {
         "order_rule": list(DECISION_RULE),
         "deterministic_rule": list(DETERMINISTIC_RULE),
+        "grid_rule": list(GRID_RULE),
         "verdict_rule": list(VERDICT_RULE),
         "tests": [dict(test) for test in TESTS],
         "references": sorted(REFERENCES),

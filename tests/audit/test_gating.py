@@ -15,6 +15,28 @@ from reportgen.cli import failing_regressions
 SHORT = '  short: {formula: "walk_a ~ walk_b", sample: {start: "2019-10"}}\n'
 
 
+@pytest.fixture
+def fragile_only(monkeypatch: pytest.MonkeyPatch) -> Callable[..., None]:
+    """Fix which regressions count as fragile, so the gating logic is tested apart from the data.
+
+    Whether a simulated walk's order is fragile depends on the draw; these tests are about how
+    --fail-on reads the field, not about the robustness grid (tested in tests/stats).
+    """
+
+    def choose(*names: str) -> None:
+        original = reportgen.runner.results_to_dict
+
+        def with_chosen_fragility(results: Any) -> dict[str, Any]:
+            document = original(results)
+            for name, regression in document["regressions"].items():
+                regression["fragile"] = name in names
+            return document
+
+        monkeypatch.setattr(reportgen.runner, "results_to_dict", with_chosen_fragility)
+
+    return choose
+
+
 def test_fail_on_flagged_exits_1_naming_the_regressions(small_project: Callable[..., Path], tmp_path: Path,
                                                         cli_run) -> None:
     out = tmp_path / "out"
@@ -29,7 +51,9 @@ def test_fail_on_flagged_exits_1_naming_the_regressions(small_project: Callable[
 
 
 def test_fail_on_inconclusive_names_only_the_inconclusive(small_project: Callable[..., Path], small_manifest: str,
-                                                          tmp_path: Path, cli_run) -> None:
+                                                          tmp_path: Path, cli_run,
+                                                          fragile_only: Callable[..., None]) -> None:
+    fragile_only()
     manifest = small_project(small_manifest + SHORT)
     out = tmp_path / "out"
     status, _, stderr = cli_run("run", manifest, "--out", out, "--format", "json", "--quiet", "--fail-on",
@@ -44,22 +68,17 @@ def test_fail_on_inconclusive_names_only_the_inconclusive(small_project: Callabl
     assert stderr.endswith("condition:\n  inconclusive: short\n  flagged: a_on_b, noise_on_a, short\n")
 
 
-def test_no_condition_met_exits_0(small_project: Callable[..., Path], tmp_path: Path, cli_run) -> None:
+def test_no_condition_met_exits_0(small_project: Callable[..., Path], tmp_path: Path, cli_run,
+                                  fragile_only: Callable[..., None]) -> None:
+    fragile_only()
     status, _, stderr = cli_run("run", small_project(), "--out", tmp_path / "out", "--format", "json", "--quiet",
                                 "--fail-on", "inconclusive,fragile")
     assert (status, stderr) == (0, "")
 
 
 def test_fail_on_fragile_reads_the_regressions_fragile_field(small_project: Callable[..., Path], tmp_path: Path,
-                                                             cli_run, monkeypatch: pytest.MonkeyPatch) -> None:
-    original = reportgen.runner.results_to_dict
-
-    def with_a_fragile_regression(results: Any) -> dict[str, Any]:
-        document = original(results)
-        document["regressions"]["noise_on_a"]["fragile"] = True
-        return document
-
-    monkeypatch.setattr(reportgen.runner, "results_to_dict", with_a_fragile_regression)
+                                                             cli_run, fragile_only: Callable[..., None]) -> None:
+    fragile_only("noise_on_a")
     status, _, stderr = cli_run("run", small_project(), "--out", tmp_path / "out", "--format", "json", "--quiet",
                                 "--fail-on", "fragile")
     assert status == 1
