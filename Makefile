@@ -24,7 +24,7 @@ demo: $(VENV)/.installed
 	@echo "The demo dossier is in $(abspath $(DEMO_OUT)): dossier.html, dossier.pdf, results.json"
 
 test: $(VENV)/.installed-test
-	$(BIN)/python -m ruff check reportgen tests manifests
+	$(BIN)/python -m ruff check reportgen tests manifests tools
 	$(BIN)/python -m pytest -q
 
 clean:

@@ -92,8 +92,10 @@ TESTS: tuple[dict[str, str], ...] = (
             "The eigenvalues of the reduced-rank regression of a vector error-correction model with the stated "
             "deterministic case give the trace and maximum-eigenvalue statistics for each rank r. The rank is "
             "chosen by the sequential trace procedure: the first r whose null hypothesis is not rejected. "
-            "Critical values: MacKinnon, Haug and Michelis (1999) for the unrestricted cases, Osterwald-Lenum "
-            "(1992) for the restricted ones."
+            "Critical values: MacKinnon, Haug and Michelis (1999) for the unrestricted cases; for the "
+            "restricted ones (2 and 4), reportgen's own seeded simulation, which lies within 3% of "
+            "Osterwald-Lenum (1992). The case follows the drift: a constant restricted to the relation "
+            "when no variable drifts, unrestricted when one does."
         ),
         "reference": "Johansen (1988, 1991); MacKinnon, Haug and Michelis (1999); Osterwald-Lenum (1992)",
     },
