@@ -968,8 +968,10 @@ def integration_order(
 
     count = len(values) - top
     if count < settings.min_observations:
+        differences = "difference" if top == 1 else "differences"
         reason = (
-            f"too few observations: {max(count, 0)} at level {top}; at least {settings.min_observations} are needed"
+            f"too few observations: the series has {len(values)}, {max(count, 0)} after {top} {differences} "
+            f"(the highest order tested); at least {settings.min_observations} are needed at every level"
         )
         trail.append(f"{_level_label(name, top)}: {reason}; no test run.")
         return finish(None, reason)

@@ -140,11 +140,12 @@ def test_kpss_uses_the_short_bandwidth() -> None:
 def test_too_few_observations_gives_no_order_with_the_numbers() -> None:
     verdict = integration_order("short", random_walk(2, length=21), StatsSettings())
     assert verdict.order is None
-    assert verdict.reason == "too few observations: 19 at level 2; at least 20 are needed"
+    reason = ("too few observations: the series has 21, 19 after 2 differences (the highest order tested); "
+              "at least 20 are needed at every level")
+    assert verdict.reason == reason
     assert verdict.trail == (
-        "Level 2 (second differences of short): too few observations: 19 at level 2; at least 20 are needed; "
-        "no test run.",
-        "Order not determined: too few observations: 19 at level 2; at least 20 are needed.",
+        f"Level 2 (second differences of short): {reason}; no test run.",
+        f"Order not determined: {reason}.",
     )
     assert verdict.tests == ()
     assert verdict.grid == ()
