@@ -213,6 +213,34 @@ def _significance_key(significance: float) -> str:
     raise ValueError(f"KPSS significance must be one of {allowed}; got {significance!r}")
 
 
+def _lag_search(test: str, nobs_series: int, *, level: int, deterministic: Deterministic, criterion: str,
+                max_lags: int | None, min_observations: int) -> tuple[int, str]:
+    """The largest lag an ADF-type search may try, and its rule in words; refuse too-short series.
+
+    The default is Schwert's floor rule, reduced when the regression would not be feasible.
+    """
+    feasible = adf_feasible_max_lags(nobs_series, deterministic)
+    if max_lags is None:
+        rule_lags = schwert_max_lags(nobs_series)
+        search_lags = min(rule_lags, feasible)
+        if search_lags < rule_lags:
+            rule_text = f"Schwert 1989, floor rule, reduced from {rule_lags} so the regression stays feasible"
+        else:
+            rule_text = "Schwert 1989, floor rule"
+    else:
+        search_lags = max_lags
+        rule_text = "maximum set by the caller"
+    shown_lags = max(search_lags, 0)
+    needed = max(min_observations, 2 * (shown_lags + _TREND_COUNT[deterministic] + 1))
+    if nobs_series < needed:
+        up_to = "" if criterion == "fixed" else "up to "
+        raise InsufficientDataError(
+            f"{test} {TERMS_TEXT[deterministic]} and {up_to}{_lags_text(shown_lags)} needs at least "
+            f"{needed} observations; the series has {nobs_series} at level {level}"
+        )
+    return search_lags, rule_text
+
+
 def adf(
     values: pd.Series,
     *,
@@ -300,26 +328,10 @@ def adf(
     array = _as_array(values, "ADF", level)
     nobs_series = array.size
     regression = _REGRESSION[deterministic]
-    feasible = adf_feasible_max_lags(nobs_series, deterministic)
-    if max_lags is None:
-        rule_lags = schwert_max_lags(nobs_series)
-        search_lags = min(rule_lags, feasible)
-        if search_lags < rule_lags:
-            rule_text = f"Schwert 1989, floor rule, reduced from {rule_lags} so the regression stays feasible"
-        else:
-            rule_text = "Schwert 1989, floor rule"
-    else:
-        search_lags = max_lags
-        rule_text = "maximum set by the caller"
-
-    shown_lags = max(search_lags, 0)
-    needed = max(min_observations, 2 * (shown_lags + _TREND_COUNT[deterministic] + 1))
-    if nobs_series < needed:
-        up_to = "" if criterion == "fixed" else "up to "
-        raise InsufficientDataError(
-            f"ADF {TERMS_TEXT[deterministic]} and {up_to}{_lags_text(shown_lags)} needs at least "
-            f"{needed} observations; the series has {nobs_series} at level {level}"
-        )
+    search_lags, rule_text = _lag_search(
+        "ADF", nobs_series, level=level, deterministic=deterministic, criterion=criterion,
+        max_lags=max_lags, min_observations=min_observations,
+    )
     _check_not_constant(array, "ADF", level)
 
     with warnings.catch_warnings(record=True) as caught:
@@ -955,26 +967,10 @@ def dfgls(
 
     array = _as_array(values, "DF-GLS", level)
     nobs_series = array.size
-    feasible = adf_feasible_max_lags(nobs_series, deterministic)
-    if max_lags is None:
-        rule_lags = schwert_max_lags(nobs_series)
-        search_lags = min(rule_lags, feasible)
-        if search_lags < rule_lags:
-            rule_text = f"Schwert 1989, floor rule, reduced from {rule_lags} so the regression stays feasible"
-        else:
-            rule_text = "Schwert 1989, floor rule"
-    else:
-        search_lags = max_lags
-        rule_text = "maximum set by the caller"
-
-    shown_lags = max(search_lags, 0)
-    needed = max(min_observations, 2 * (shown_lags + _TREND_COUNT[deterministic] + 1))
-    if nobs_series < needed:
-        up_to = "" if criterion == "fixed" else "up to "
-        raise InsufficientDataError(
-            f"DF-GLS {TERMS_TEXT[deterministic]} and {up_to}{_lags_text(shown_lags)} needs at least "
-            f"{needed} observations; the series has {nobs_series} at level {level}"
-        )
+    search_lags, rule_text = _lag_search(
+        "DF-GLS", nobs_series, level=level, deterministic=deterministic, criterion=criterion,
+        max_lags=max_lags, min_observations=min_observations,
+    )
     _check_not_constant(array, "DF-GLS", level)
 
     normalised = _normalised(array)
