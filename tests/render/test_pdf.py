@@ -9,10 +9,10 @@ from typing import Any
 
 import pytest
 
+from reportgen.errors import ResourceRefusedError
 from reportgen.render.pdf import (
     BuiltPdf,
     LocalFileFetcher,
-    ResourceRefusedError,
     build_pdf,
     packaged_templates_dir,
     pdf_timestamp,
