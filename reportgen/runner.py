@@ -96,7 +96,8 @@ def load_tables(manifest: Manifest) -> dict[str, Table]:
         path = (manifest.base_dir / spec.path).resolve()
         tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
                                   manifest.locate("datasets", name, "path"),
-                                  manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort)
+                                  manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort,
+                                  shown_path=str(manifest.display_path.parent / spec.path))
     return tables
 
 
