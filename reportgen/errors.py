@@ -475,7 +475,8 @@ class SeriesTooShortError(InsufficientDataError):
     code = "too-short"
     template = ("series '{series}' has {count} observation(s) ({span}); the unit-root tests need at least "
                 "{minimum}")
-    fix = "use a longer sample, or drop transforms that cost observations (each diff or lag costs one)"
+    fix = ("use a longer sample or drop transforms that cost observations, or set 'too_short: report' on the series "
+           "(or in settings) to keep it in the dossier with its order undetermined")
 
 
 class SampleTooShortError(InsufficientDataError):
@@ -713,7 +714,9 @@ def explain(code: str) -> str:
     """A catalogue entry in words: its code, category, description, message and fix."""
     entry = CATALOGUE[code]
     description = (entry.__doc__ or "").strip().splitlines()[0]
-    lines = [f"{code} ({entry.category.lower()}): {description}", f"  message: {entry.template}"]
+    lines = [f"{code} ({entry.category.lower()}): {description}"]
+    if entry.template.strip("{}") != "problem":
+        lines.append(f"  message: {entry.template}")
     if entry.fix:
         lines.append(f"  fix:     {entry.fix}")
     lines.append("  exit status 2; the file, line and field are named; no dossier is written or changed")
