@@ -95,7 +95,8 @@ datasets:
     path: {_yaml(DATA_FILE)}
     index: month
 series:
-  walk_a: {{dataset: sim, column: {_yaml(COLUMN_SCRIPT)}, label: {_yaml("walk a " + HOSTILE)}}}
+  walk_a: {{dataset: sim, column: {_yaml(COLUMN_SCRIPT)}, missing: drop-leading-trailing,
+           label: {_yaml("walk a " + HOSTILE)}}}
   walk_b: {{dataset: sim, column: {_yaml(COLUMN_ATTRIBUTE)}, transform: [log], label: {_yaml("walk b " + HOSTILE)}}}
   noise: {{dataset: sim, column: noise}}
 regressions:
