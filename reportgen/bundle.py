@@ -118,6 +118,24 @@ def snapshot_entries(inputs: list[Mapping[str, Any]]) -> dict[str, str]:
     return {name: posixpath.normpath(str(base / path)) for name, path in relative.items()}
 
 
+def check_bundle_inputs(manifest: Manifest) -> None:
+    """Refuse, before any analysis, a data path that a bundle cannot hold; the error points at the manifest line."""
+    inputs: list[dict[str, Any]] = [{"role": "manifest", "name": "manifest", "path": str(manifest.path),
+                                     "relative_path": manifest.path.name}]
+    inputs += [{"role": "data", "name": name, "path": str((manifest.base_dir / spec.path).resolve()),
+                "relative_path": spec.path} for name, spec in manifest.spec.datasets.items()]
+    try:
+        snapshot_entries(inputs)
+    except BundleInputError as error:
+        key_path = error.location.key_path if error.location is not None else None
+        if key_path:
+            where = manifest.locate(*key_path.split("."))
+        else:
+            first = next(iter(manifest.spec.datasets))
+            where = manifest.locate("datasets", first, "path")
+        raise BundleInputError(error.message, location=where, hint=error.hint) from None
+
+
 def _zip_time(created: str) -> tuple[int, int, int, int, int, int]:
     """``created`` (ISO 8601, UTC) as a zip entry date: never before 1980, seconds rounded down to even.
 

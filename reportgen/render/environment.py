@@ -394,8 +394,7 @@ def build_environment(template_dirs: Sequence[Path] = ()) -> jinja2.Environment:
     for folder in template_dirs:
         path = Path(folder)
         if not path.is_dir():
-            raise TemplateFolderMissingError(
-                path=path, hint="check the templates setting of the manifest or the --templates option")
+            raise TemplateFolderMissingError(path=path)
         user_dirs.append(path.resolve())
     packaged = packaged_templates_dir()
     environment = ImmutableSandboxedEnvironment(

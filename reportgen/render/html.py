@@ -23,6 +23,7 @@ from markupsafe import Markup
 from reportgen.errors import (
     Location,
     StylesheetUnsafeError,
+    TemplateNameRefusedError,
     TemplateNotFoundError,
     TemplateSyntaxError,
     TemplateUnsafeError,
@@ -504,10 +505,10 @@ def render_html(document: Mapping[str, Any], plots: Mapping[str, str], template_
         raise TemplateNotFoundError(name=error.name, location=_user_template_frame(error, template_dirs)) from error
     except TemplateLoadRefusedError as error:
         # The loader refused a name or a file of a user folder, whichever template asked for it.
-        raise TemplateUnsafeError(problem=str(error), location=_user_template_frame(error, template_dirs),
-                                  hint="include or extend templates by their name inside a template folder, "
-                                       "e.g. 'partials/summary.html.j2'; links out of the folder are not followed"
-                                  ) from error
+        raise TemplateNameRefusedError(problem=str(error), location=_user_template_frame(error, template_dirs),
+                                       hint="include or extend templates by their name inside a template folder, "
+                                            "e.g. 'partials/summary.html.j2'; links out of the folder are not "
+                                            "followed") from error
     except (jinja2.UndefinedError, jinja2.exceptions.SecurityError) as error:
         location = _user_template_frame(error, template_dirs)
         if location is None:

@@ -24,7 +24,7 @@ from urllib.request import DataHandler, Request, url2pathname
 
 from weasyprint.urls import URLFetcher, URLFetcherResponse  # type: ignore[import-untyped]
 
-from reportgen.errors import ReportgenError, ResourceRefusedError
+from reportgen.errors import ReportgenError, ResourceRefusedError, ResourceUnreadableError
 from reportgen.render.environment import packaged_templates_dir
 
 
@@ -77,7 +77,7 @@ class LocalFileFetcher(URLFetcher):  # type: ignore[misc]
                 problem=f"the dossier may not load {path}: it is outside "
                 + " and ".join(str(root) for root in self.roots))
         if not path.is_file():
-            raise ResourceRefusedError(problem=f"the dossier refers to {path}, which does not exist")
+            raise ResourceUnreadableError(problem=f"the dossier refers to {path}, which does not exist")
         content_type = mimetypes.guess_type(path.name)[0] or "application/octet-stream"
         return URLFetcherResponse(path.as_uri(), body=path.read_bytes(), headers={"Content-Type": content_type})
 
@@ -89,8 +89,8 @@ def _data_response(url: str) -> URLFetcherResponse:
             body = response.read()
             content_type = response.headers.get("Content-Type", "text/plain;charset=US-ASCII")
     except (ValueError, URLError) as error:
-        raise ResourceRefusedError(problem=f"the dossier has a data: URL that cannot be decoded ({error})",
-                                   hint="check the data: URL's base64 text") from None
+        raise ResourceUnreadableError(problem=f"the dossier has a data: URL that cannot be decoded ({error})",
+                                      hint="check the data: URL's base64 text") from None
     return URLFetcherResponse(url, body=body, headers={"Content-Type": content_type})
 
 

@@ -24,7 +24,7 @@ import pytest
 from bs4 import BeautifulSoup
 
 from reportgen import cli, runner
-from reportgen.errors import ResourceRefusedError
+from reportgen.errors import ResourceRefusedError, ResourceUnreadableError
 from reportgen.render.environment import build_environment, packaged_templates_dir
 from reportgen.render.html import _svg_problem
 from reportgen.render.pdf import LocalFileFetcher, build_pdf
@@ -209,11 +209,11 @@ SANDBOX_ATTACKS: dict[str, tuple[str, str]] = {
     "format-map": ("{{ '{a.__class__}'.format_map({'a': cycler}) }}", "template-unsafe"),
     "popen": ("{{ cycler.__init__.__globals__.os.popen('touch SENTINEL').read() }}", "template-unsafe"),
     "system": ("{{ lipsum.__globals__['os'].system('touch SENTINEL') }}", "template-unsafe"),
-    "include-absolute": ("{% include '/etc/passwd' %}", "template-unsafe"),
-    "include-climbing": ("{% include '../../outside.html' %}", "template-unsafe"),
-    "include-climbing-default": ("{% include 'default/../../outside.html' %}", "template-unsafe"),
-    "extends-absolute": ("{% extends '/etc/passwd' %}", "template-unsafe"),
-    "import-climbing": ("{% import '../outside.html' as outside %}", "template-unsafe"),
+    "include-absolute": ("{% include '/etc/passwd' %}", "template-name-refused"),
+    "include-climbing": ("{% include '../../outside.html' %}", "template-name-refused"),
+    "include-climbing-default": ("{% include 'default/../../outside.html' %}", "template-name-refused"),
+    "extends-absolute": ("{% extends '/etc/passwd' %}", "template-name-refused"),
+    "import-climbing": ("{% import '../outside.html' as outside %}", "template-name-refused"),
     "include-missing": ("{% include 'partials/no-such-part.html.j2' %}", "template-not-found"),
     "change-document": ("{{ document.regressions['a_on_b'].update({'flagged': false}) or '' }}", "template-unsafe"),
     "change-list": ("{{ document.inputs.append({}) or '' }}", "template-unsafe"),
@@ -255,7 +255,7 @@ def test_sandbox_messages_word_for_word(project: Path, tmp_path: Path, cli_run: 
     cover = user_cover(tmp_path / "templates", SANDBOX_ATTACKS["include-climbing"][0])
     status, _, stderr = cli_run("run", project, "--out", tmp_path / "out", "--templates", cover.parent.parent)
     assert status == 2
-    assert stderr == (f"{cover}:2: error[template-unsafe]: template error: '../../outside.html' is not a template name "
+    assert stderr == (f"{cover}:2: error[template-name-refused]: '../../outside.html' is not a template name "
                       "reportgen loads: templates are named by a relative path inside a template folder, without "
                       "'..'\n  hint: include or extend templates by their name inside a template folder, e.g. "
                       "'partials/summary.html.j2'; links out of the folder are not followed\n")
@@ -291,7 +291,7 @@ def test_links_out_of_the_template_folder_are_not_followed(link: str, project: P
     (templates / link).symlink_to(outside / link)
     out = tmp_path / "out"
     status, stdout, stderr = cli_run("run", project, "--out", out, "--format", "html", "--templates", templates)
-    assert_refused(status, stdout, stderr, out, "template-unsafe")
+    assert_refused(status, stdout, stderr, out, "template-name-refused")
     assert f"is a link to {(outside / link).resolve()}" in stderr or f"is a link to {outside.resolve()}" in stderr
     assert "outside its template folder" in stderr
 
@@ -538,7 +538,7 @@ def test_data_urls_are_decoded_without_any_io(tmp_path: Path, no_network: list[A
     monkeypatch.setattr(type(fetcher), "open", lambda *arguments, **options: pytest.fail("urllib opener used"))
     response = fetcher.fetch("data:image/svg+xml;base64," + "PHN2Zy8+")
     assert (response.read(), response.content_type) == (b"<svg/>", "image/svg+xml")
-    with pytest.raises(ResourceRefusedError, match="data: URL that cannot be decoded"):
+    with pytest.raises(ResourceUnreadableError, match="data: URL that cannot be decoded"):
         fetcher.fetch("data:text/plain;base64,a")
     svg = ('<img alt="" src="data:image/svg+xml,%3Csvg xmlns=%22http://www.w3.org/2000/svg%22 width=%2210%22 '
            'height=%2210%22/%3E">')

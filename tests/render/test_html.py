@@ -708,4 +708,4 @@ def test_missing_template_folder_is_an_error(tmp_path: Path, document: dict[str,
         render_html(document, {}, [tmp_path / "nowhere"])
     assert caught.value.render() == (
         f"error[template-folder-missing]: template folder {tmp_path / 'nowhere'} does not exist or is not a folder\n"
-        "  hint: check the templates setting of the manifest or the --templates option")
+        "  hint: check the --templates option")
