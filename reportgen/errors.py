@@ -651,6 +651,14 @@ class TemplateSyntaxError(TemplateError):
     fix = "fix the template, or remove it to use the packaged one"
 
 
+class TemplateNameRefusedError(TemplateError):
+    """A template included or extended by an absolute name, a name with '..', or a link out of its folder."""
+
+    code = "template-name-refused"
+    template = "{problem}"
+    fix = "include or extend templates by their name inside a template folder, e.g. 'partials/cover.html.j2'"
+
+
 class TemplateNotFoundError(TemplateError):
     """A user template that includes or extends a template that does not exist."""
 
@@ -673,6 +681,14 @@ class StylesheetUnsafeError(TemplateError):
     code = "stylesheet-unsafe"
     template = "style.css must not contain a closing </style> tag"
     fix = "remove the tag from the stylesheet"
+
+
+class ResourceUnreadableError(TemplateError):
+    """A resource the dossier may load that cannot be read: a file that vanished, an undecodable data: URL."""
+
+    code = "resource-unreadable"
+    template = "{problem}"
+    fix = "check that the file exists and is readable, or fix the data: URL"
 
 
 class ResourceRefusedError(TemplateError):

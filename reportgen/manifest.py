@@ -237,6 +237,12 @@ def _construct(loader: _StrictLoader, node: yaml.Node, path: KeyPath, positions:
     return loader.construct_object(node, deep=True)
 
 
+def _byte_position(raw: bytes, offset: int) -> tuple[int, int]:
+    """The 1-based line and column (in bytes) of a byte offset, for encoding errors."""
+    before = raw[:offset]
+    return before.count(b"\n") + 1, offset - (before.rfind(b"\n") + 1) + 1
+
+
 def read_yaml(path: Path) -> tuple[bytes, Any, dict[KeyPath, tuple[int, int]]]:
     """Read a YAML file strictly; return its bytes, its data and the position of every key."""
     try:
@@ -250,7 +256,8 @@ def read_yaml(path: Path) -> tuple[bytes, Any, dict[KeyPath, tuple[int, int]]]:
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as error:
-        raise ManifestEncodingError(location=Location(path), offset=error.start) from None
+        line, column = _byte_position(raw, error.start)
+        raise ManifestEncodingError(location=Location(path, line, column), offset=error.start) from None
     positions: dict[KeyPath, tuple[int, int]] = {(): (1, 1)}
     loader: _StrictLoader | None = None
     try:

@@ -96,7 +96,8 @@ def load_tables(manifest: Manifest) -> dict[str, Table]:
         path = (manifest.base_dir / spec.path).resolve()
         tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
                                   manifest.locate("datasets", name, "path"),
-                                  manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort)
+                                  manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort,
+                                  shown_path=str(manifest.display_path.parent / spec.path))
     return tables
 
 
@@ -438,7 +439,7 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
 
                 progress("writing PDF")
                 render_pdf(html, staging / "dossier.pdf", base_dir=manifest.base_dir, created=document["created"],
-                           attachments=(manifest.path, staging / RESULTS_FILE))
+                           attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=template_dirs)
                 written.append("dossier.pdf")
         if bundle:
             from reportgen.bundle import write_bundle
@@ -542,6 +543,10 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
     for message in remove_stale_staging(out, started):
         progress(message)
     _check_out_dir(out, manifest.path, force=force)
+    if bundle:
+        from reportgen.bundle import check_bundle_inputs
+
+        check_bundle_inputs(manifest)
     results = analyse(manifest, command if command is not None else sys.argv, progress)
     document = results_to_dict(results)
     document["run_id"] = document_run_id(document)

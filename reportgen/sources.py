@@ -237,13 +237,17 @@ def _infer_frequency(kinds: set[str], dates: list[pd.Timestamp]) -> str | None:
 
 
 def read_table(name: str, path: Path, display_path: str, index_column: str, declared: str | None,
-               where: Location, index_where: Location, *, missing: str = "error", sort: bool = False) -> Table:
+               where: Location, index_where: Location, *, missing: str = "error", sort: bool = False,
+               shown_path: str | None = None) -> Table:
     """Read a CSV dataset; every problem raises a catalogue error naming file, line and value.
 
     ``missing`` is the dataset's missing-data policy: with ``interpolate`` a period of the
     calendar that has no row becomes a row of empty cells (to be filled), otherwise it is an
     error. ``sort`` lets rows out of date order be sorted (recorded in the notes) rather than refused.
+    ``shown_path`` is the file as errors locate it (from the current folder); messages and the
+    dossier use ``display_path``, the path as the manifest gives it.
     """
+    here = shown_path or display_path
     try:
         raw = path.read_bytes()
     except FileNotFoundError:
@@ -255,17 +259,28 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as error:
-        raise DataEncodingError(location=where, file=display_path, offset=error.start) from None
+        before = raw[:error.start]
+        line, column = before.count(b"\n") + 1, error.start - (before.rfind(b"\n") + 1) + 1
+        raise DataEncodingError(location=Location(here, line, column), file=display_path, offset=error.start) from None
     if "\x00" in text:
         raise DataEncodingError(f"{display_path} holds NUL bytes (the first at character {text.index(chr(0))}); "
                                 "it is not a text file", location=where)
+    rows: list[list[str]] = []
+    numbers: list[int] = []  # the file line each row starts on (a quoted cell may span lines)
+    reader = csv.reader(io.StringIO(text, newline=""))
     try:
-        rows = list(csv.reader(io.StringIO(text, newline="")))
+        previous = 0
+        for row in reader:
+            if row:  # a blank line is not a row
+                rows.append(row)
+                numbers.append(previous + 1)
+            previous = reader.line_num
     except csv.Error as error:
-        raise RaggedRowsError(location=Location(display_path), file=display_path,
-                              listing=f"the file cannot be read as CSV ({error})") from None
+        raise RaggedRowsError(location=Location(here, reader.line_num), file=display_path,
+                              listing=f"line {reader.line_num} cannot be read as CSV ({error})") from None
     while rows and not any(cell.strip() for cell in rows[-1]):
         rows.pop()
+        numbers.pop()
     if not rows:
         raise DataEmptyError(location=where, file=display_path, problem="is empty")
     header = [cell.strip() for cell in rows[0]]
@@ -274,29 +289,30 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
                                       columns=", ".join(header))
     duplicated = sorted({column for column in header if header.count(column) > 1})
     if duplicated:
-        raise DuplicateColumnError(location=Location(display_path, 1), file=display_path,
+        raise DuplicateColumnError(location=Location(here, numbers[0]), file=display_path,
                                    columns=", ".join(duplicated))
     body = rows[1:]
     if not body:
         raise DataEmptyError(location=where, file=display_path, problem="has a header but no rows")
     position = header.index(index_column)
     parsed: list[tuple[str, tuple[int, ...]]] = []
-    unparsable: list[str] = []
-    ragged: list[str] = []
-    for line_number, row in enumerate(body, start=2):
+    unparsable: list[tuple[int, str]] = []
+    ragged: list[tuple[int, str]] = []
+    for line_number, row in zip(numbers[1:], body, strict=True):
         if len(row) != len(header):
-            ragged.append(f"line {line_number} has {len(row)} fields, the header {len(header)}")
+            ragged.append((line_number, f"line {line_number} has {len(row)} fields, the header {len(header)}"))
             continue
         kind = _date_kind(row[position])
         if kind is None:
-            unparsable.append(f"line {line_number}: {row[position]!r}")
+            unparsable.append((line_number, f"line {line_number}: {row[position]!r}"))
         else:
             parsed.append(kind)
     if ragged:
-        raise RaggedRowsError(location=Location(display_path), file=display_path, listing=_listing(ragged))
+        raise RaggedRowsError(location=Location(here, ragged[0][0]), file=display_path,
+                              listing=_listing([text for _, text in ragged]))
     if unparsable:
-        raise DatesUnparsableError(location=Location(display_path), column=index_column, file=display_path,
-                                   listing=_listing(unparsable))
+        raise DatesUnparsableError(location=Location(here, unparsable[0][0]), column=index_column,
+                                   file=display_path, listing=_listing([text for _, text in unparsable]))
     kinds = {kind for kind, _ in parsed}
     timestamps = [pd.Timestamp(year=p[0], month=p[1], day=p[2]) for kind, p in parsed if kind == "date"]
     frequency = declared or _infer_frequency(kinds, timestamps)
@@ -309,24 +325,26 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
         raise FrequencyMismatchError(location=where, file=display_path, frequency=frequency,
                                      form=_FORM_NAMES[too_coarse[0]])
     periods = [_to_period(kind, parts, frequency) for kind, parts in parsed]
-    lines = list(range(2, 2 + len(body)))
+    lines = numbers[1:]
     notes: list[str] = []
     seen: dict[pd.Period, int] = {}
-    duplicates: list[str] = []
+    duplicates: list[tuple[int, str]] = []
     for period, line in zip(periods, lines, strict=True):
         if period in seen:
-            duplicates.append(f"{period_label(period)} on lines {seen[period]} and {line}")
+            duplicates.append((line, f"{period_label(period)} on lines {seen[period]} and {line}"))
         else:
             seen[period] = line
     if duplicates:
-        raise DatesDuplicateError(location=Location(display_path), file=display_path, listing=_listing(duplicates),
-                                  frequency=frequency)
+        raise DatesDuplicateError(location=Location(here, duplicates[0][0]), file=display_path,
+                                  listing=_listing([text for _, text in duplicates]), frequency=frequency)
     order = sorted(range(len(periods)), key=lambda i: periods[i])
     if order != list(range(len(periods))):
-        backwards = [f"line {lines[i + 1]} ({period_label(periods[i + 1])} after {period_label(periods[i])})"
-                     for i in range(len(periods) - 1) if periods[i + 1] < periods[i]]
+        steps_back = [i + 1 for i in range(len(periods) - 1) if periods[i + 1] < periods[i]]
+        backwards = [f"line {lines[i]} ({period_label(periods[i])} after {period_label(periods[i - 1])})"
+                     for i in steps_back]
         if not sort:
-            raise DatesUnsortedError(location=Location(display_path), file=display_path, listing=_listing(backwards))
+            raise DatesUnsortedError(location=Location(here, lines[steps_back[0]]), file=display_path,
+                                     listing=_listing(backwards))
         notes.append(f"rows of {display_path} were not in date order ({len(backwards)} step(s) back in time, the "
                      f"first at {backwards[0]}); reportgen sorted them, as the dataset's 'sort: true' allows")
     index = pd.PeriodIndex([periods[i] for i in order], freq=_PANDAS_FREQ[frequency])
@@ -337,7 +355,7 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     if len(full) != len(index):
         absent = [period_label(period) for period in full.difference(index)]
         if missing != "interpolate":
-            raise DatesIrregularError(location=Location(display_path), file=display_path, count=len(absent),
+            raise DatesIrregularError(location=Location(here), file=display_path, count=len(absent),
                                       frequency=frequency, listing=_listing(absent))
         present = {period: position for position, period in enumerate(index)}
         row_lines = [row_lines[present[period]] if period in present else 0 for period in full]

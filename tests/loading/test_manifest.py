@@ -84,7 +84,8 @@ def test_unknown_dataset_and_series_are_named(project: Callable[..., Path], base
 def test_formula_error_shows_a_caret(project: Callable[..., Path], base: str) -> None:
     path = project(base.replace('"a ~ b"', '"a ~ b * 2"'))
     assert _render(path) == (
-        f"{path}:12:12: error[formula-syntax]: regressions.a_on_b.formula: unexpected character '*'; a formula holds series "
+        f"{path}:12:12: error[formula-syntax]: regressions.a_on_b.formula: unexpected character '*'; a formula holds "
+        "series "
         "names, '~' and '+' only\n    a ~ b * 2\n          ^\n  hint: write formulas as 'y ~ x1 + x2' with series "
         "names")
 
@@ -102,9 +103,11 @@ def test_parameterised_transforms(project: Callable[..., Path], base: str) -> No
     [
         ("", "error[manifest-empty]: the manifest is empty"),
         ("- a\n- b\n", "1:1: error[manifest-not-mapping]: the manifest must be a mapping of sections; found a list"),
-        ("reportgen: 1\nproject: {title: x\n", "3:1: error[yaml-syntax]: YAML syntax error: expected ',' or '}', but got "
+        ("reportgen: 1\nproject: {title: x\n", "3:1: error[yaml-syntax]: YAML syntax error: expected ',' or '}', "
+                                                "but got "
                                                 "'<stream end>'"),
-        ("reportgen: 1\n<<: {a: 1}\n", "2:1: error[yaml-unsupported]: YAML merge keys ('<<') cannot be used in a manifest"),
+        ("reportgen: 1\n<<: {a: 1}\n",
+         "2:1: error[yaml-unsupported]: YAML merge keys ('<<') cannot be used in a manifest"),
         ("reportgen: 2\nproject: {title: x}\ndatasets: {}\nseries: {}\n", "reportgen: expected one of 1; got 2"),
     ],
 )
@@ -116,11 +119,13 @@ def test_unusable_documents(project: Callable[..., Path], content: str, expected
 
 
 def test_missing_and_non_utf8_manifest(tmp_path: Path) -> None:
-    assert _render(tmp_path / "nope.yaml") == (f"{tmp_path / 'nope.yaml'}: error[manifest-not-found]: manifest file not found\n"
+    assert _render(tmp_path / "nope.yaml") == (f"{tmp_path / 'nope.yaml'}: error[manifest-not-found]: manifest file "
+                                               "not found\n"
                                                "  hint: check the path; relative paths start from the current folder")
     latin = tmp_path / "latin.yaml"
     latin.write_bytes("reportgen: 1\nproject: {title: caf\xe9}\n".encode("latin-1"))
-    assert _render(latin) == f"{latin}: error[manifest-encoding]: the manifest is not UTF-8 text (byte 33)\n  hint: save the file as UTF-8"
+    assert _render(latin) == (f"{latin}:2:21: error[manifest-encoding]: the manifest is not UTF-8 text (byte 33)\n"
+                              "  hint: save the file as UTF-8")
 
 
 def test_python_tags_cannot_run_code(project: Callable[..., Path], tmp_path: Path) -> None:

@@ -52,8 +52,10 @@ def test_frequency_is_inferred(project: Callable[..., Path], base: str, labels: 
 
 def test_unsorted_rows_are_refused_unless_sorting_is_allowed(project: Callable[..., Path], base: str) -> None:
     data = "month,a,b\n2010-02,2,1\n2010-01,1,1\n2010-03,3,1\n"
-    assert _data_error(project(base, data)) == (
-        "data.csv: error[dates-unsorted]: the rows of data.csv are not in date order: line 3 (2010-01 after "
+    path = project(base, data)
+    assert _data_error(path) == (
+        f"{path.parent / 'data.csv'}:3: error[dates-unsorted]: the rows of data.csv are not in date order: line 3 "
+        "(2010-01 after "
         "2010-02)\n  hint: sort the file by date, or add 'sort: true' to the dataset to let reportgen sort it "
         "(recorded in the dossier)")
     path = project(base.replace("index: month", "index: month\n    sort: true"), data)
@@ -69,8 +71,9 @@ def test_unsorted_rows_are_refused_unless_sorting_is_allowed(project: Callable[.
 def test_unparsable_dates_are_listed_with_lines(project: Callable[..., Path]) -> None:
     path = project(data="month,a,b\n2010-01,1,1\nJan 2010,2,2\n2010-13,3,3\n")
     assert _data_error(path) == (
-        "data.csv: error[dates-unparsable]: column 'month' of data.csv has dates reportgen cannot read: line 3: 'Jan 2010'; "
-        "line 4: '2010-13'\n  hint: write dates as 2011, 2011Q1, 2011-03 or 2011-03-14")
+        f"{path.parent / 'data.csv'}:3: error[dates-unparsable]: column 'month' of data.csv has dates reportgen "
+        "cannot read: line 3: 'Jan 2010'; line 4: '2010-13'\n  hint: write dates as 2011, 2011Q1, 2011-03 or "
+        "2011-03-14")
 
 
 def test_duplicate_periods_are_listed(project: Callable[..., Path]) -> None:
