@@ -67,15 +67,17 @@ def check_variation(name: str, values: pd.Series) -> None:
     """Refuse a series that is constant or varies only in its last significant digits.
 
     The series is refused when its spread, ``max - min``, is at most :data:`VARIATION_LIMIT`
-    (1e-10) times its largest absolute value. Float64 numbers carry about 16 significant digits
-    (machine epsilon ``2.2e-16``). Values that agree in their first 10 digits keep at most 6 digits
-    of variation, and the statistics consume more: each difference of nearly equal numbers cancels
-    the digits they share, and the least-squares regressions of the tests lose a further
-    ``log10`` of their condition number. With less than 1e-10 of relative spread the residuals of
-    those regressions are dominated by rounding error, so the threshold sits well above the ``1e-13``
-    or so at which that happens while staying below the ``1e-7`` or so of the least precise data a
-    statistics office publishes (7 significant digits). The check depends only on the ratio, so
-    it does not change when the series is multiplied by any non-zero constant.
+    (1e-10) times its largest absolute value, that is when all its values agree in their first 10
+    significant digits. Float64 numbers carry about 16 significant digits (machine epsilon
+    ``2.2e-16``), so such a series keeps at most 6 digits of variation, and the tests consume more:
+    each difference of nearly equal numbers cancels the digits they share, and the least-squares
+    regressions of the tests lose a further ``log10`` of their condition number (easily 3 to 5
+    digits with a constant, a trend and lagged differences). What is left for the residuals is then
+    of the order of the rounding error, so the statistics would describe the arithmetic, not the
+    data. A limit of 1e-10 keeps a margin of a thousand above that point, while any series recorded
+    with up to 10 significant digits, which covers published economic and financial data, passes.
+    The check depends only on a ratio, so it does not change when the series is multiplied by any
+    non-zero constant.
 
     Parameters
     ----------

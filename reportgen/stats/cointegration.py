@@ -27,6 +27,7 @@ from statsmodels.tsa import adfvalues
 from reportgen.errors import CollinearRegressorsError, SampleTooShortError, StatsInputError
 from reportgen.periods import index_labels
 from reportgen.stats.capture import warning_texts
+from reportgen.stats.checks import VARIATION_LIMIT
 from reportgen.stats.longrun import least_squares
 from reportgen.stats.types import CointegrationTest
 from reportgen.stats.unitroot import adf_lag_search, dickey_fuller_t_statistic
@@ -432,8 +433,9 @@ def engle_granger(
         scaled = values / np.max(np.abs(values), axis=0)
         step1 = least_squares(design, scaled[:, 0])
         residuals = step1.residuals
-        dependent_sum = float(np.sum((scaled[:, 0] - scaled[:, 0].mean()) ** 2))
-        if float(residuals @ residuals) <= 100.0 * np.sqrt(np.finfo(float).eps) * dependent_sum:
+        # Exact when the residuals are rounding error: a root mean square at most VARIATION_LIMIT
+        # of the dependent variable's largest magnitude (1 after the scaling), as for every fit.
+        if math.sqrt(float(residuals @ residuals) / nobs) <= VARIATION_LIMIT:
             raise StatsInputError(
                 problem=(
                     f"Engle-Granger test of {relation}: the cointegrating regression fits exactly "

@@ -1,10 +1,13 @@
 """Unit-root and stationarity tests, each returning a frozen :class:`TestResult`.
 
-ADF and KPSS come from statsmodels (``adfuller`` and ``kpss``); Phillips-Perron, DF-GLS and
-Zivot-Andrews are computed here from least-squares regressions (statsmodels' ``adfuller`` runs the
-DF-GLS regression and the Zivot-Andrews lag search; the DF-GLS lag search applies ``adfuller``'s
-rule in one QR decomposition). This module pins the choices the libraries leave open or make differently from
-reportgen, and reports them in the result:
+KPSS comes from statsmodels (``kpss``), and so does the ADF statistic below 10,000 observations
+(``adfuller`` with the lag fixed); Phillips-Perron, DF-GLS and Zivot-Andrews are computed here from
+least-squares regressions (below 10,000 observations statsmodels' ``adfuller`` runs the DF-GLS
+regression). Every lag search
+(ADF, DF-GLS, Zivot-Andrews) applies ``adfuller``'s ``autolag`` rule to all candidates from one
+factorisation (:func:`adf_lag_search`); ``adfuller`` refits each candidate, which takes minutes
+on 100,000 observations. This module pins the choices the libraries leave open or make
+differently from reportgen, and reports them in the result:
 
 * the maximum lag follows Schwert (1989) rounded *down*, ``int(12 (T/100)^(1/4))``
   (statsmodels and arch round up), reduced when the regression would otherwise be infeasible;
@@ -17,7 +20,16 @@ reportgen, and reports them in the result:
   1992); its critical values are the paper's, its p-value statsmodels' simulated distribution;
 * p-values that lie beyond the range of the table or response surface they come from are reported
   as bounds (``pvalue_bound`` ``"<"`` or ``">"``), never as exact values;
-* library warnings are captured into ``notes`` instead of being printed.
+* library warnings are captured into ``notes`` instead of being printed;
+* a series that is constant, or varies only beyond its 10th significant digit, is refused
+  (:data:`~reportgen.stats.checks.VARIATION_LIMIT`), and so is an ADF-type regression that is
+  singular, fits exactly or has no residual degree of freedom: each has no t-statistic.
+
+Long series: from :data:`~reportgen.stats.numerics.LARGE_SAMPLE` observations on, the ADF and
+DF-GLS statistics are read off reportgen's own factorisation of the regression instead of
+statsmodels' pseudo-inverse (the same number to about 1e-10), and the Zivot-Andrews break search
+is an exact rank update (:func:`_za_search`) rather than one regression per candidate break, so
+the whole battery on 100,000 observations takes seconds.
 
 Rescaling a series (multiplying it by a positive or negative constant) leaves every statistic,
 lag choice and bandwidth unchanged. To keep that true in floating point as well, each series is
