@@ -26,7 +26,7 @@ import yaml
 
 from reportgen import __version__
 from reportgen.bundle import Bundle, extract_inputs, read_bundle
-from reportgen.errors import Location, ReportgenError
+from reportgen.errors import AuditError, DamagedDossierError, Location, NoDossierError, ReportgenError
 from reportgen.manifest import load_manifest
 from reportgen.provenance import document_run_id, parse_checksums, sha256_bytes
 
@@ -43,16 +43,6 @@ _INPUT_FIELDS = ("role", "name", "relative_path", "sha256", "bytes")
 _FITS = ("levels", "differences", "long_run", "error_correction")
 _IDENTIFIER = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _HINT = "name a folder written by 'reportgen run' or the bundle.zip that 'reportgen run --bundle' wrote"
-
-
-class AuditError(ReportgenError):
-    """What was given to verify or diff is not a dossier reportgen can read."""
-
-    category = "Audit error"
-
-
-class DamagedDossierError(AuditError):
-    """A dossier folder whose results.json cannot be read as a results document."""
 
 
 class _Absent:
@@ -85,33 +75,38 @@ class Dossier:
                 f"{document.get('tool_version', '?')})")
 
 
-def _checked_document(document: Any, where: Path, error: type[AuditError] = AuditError) -> dict[str, Any]:
+def _checked_document(document: Any, where: Path, error: type[AuditError] = NoDossierError) -> dict[str, Any]:
     """The document if it has the shape of a results.json; else ``error``."""
     shape_ok = (isinstance(document, dict) and isinstance(document.get("inputs"), list)
                 and isinstance(document.get("series"), dict) and isinstance(document.get("regressions"), dict)
                 and all(isinstance(entry, dict) and {"role", "name", "path", "sha256"} <= set(entry)
                         for entry in document["inputs"]))
     if not shape_ok:
-        raise error(f"{where} is not a reportgen results document (inputs, series or regressions missing)",
-                         location=Location(where), hint=_HINT)
+        raise error(problem=f"{where} is not a reportgen results document (inputs, series or regressions missing)",
+                    location=Location(where), hint=_HINT)
     return document
 
 
 def open_dossier(path: Path | str) -> Dossier:
-    """Open a dossier folder or a bundle; anything else raises :class:`AuditError` (exit status 2)."""
+    """Open a dossier folder or a bundle; anything else raises an :class:`AuditError` (exit status 2).
+
+    :class:`NoDossierError` when nothing is there or a folder has no results.json (or a bundle's
+    document lacks the shape of one), :class:`DamagedDossierError` when a folder's results.json is
+    not a readable results document, :class:`NotABundleError` for a file that is not a bundle.
+    """
     target = Path(path)
     if not target.exists():
-        raise AuditError(f"no dossier at {target}: there is no such file or folder", location=Location(target),
-                         hint=_HINT)
+        raise NoDossierError(problem=f"no dossier at {target}: there is no such file or folder",
+                             location=Location(target))
     if target.is_dir():
         results = target / RESULTS_FILE
         if not results.is_file():
-            raise AuditError(f"{target} is not a reportgen dossier: it has no {RESULTS_FILE}",
-                             location=Location(target), hint=_HINT)
+            raise NoDossierError(problem=f"{target} is not a reportgen dossier: it has no {RESULTS_FILE}",
+                                 location=Location(target))
         try:
             document = json.loads(results.read_text(encoding="utf-8"))
         except (OSError, UnicodeDecodeError, ValueError) as error:
-            raise DamagedDossierError(f"{results} is not readable JSON ({error})", location=Location(results),
+            raise DamagedDossierError(problem=f"{results} is not readable JSON ({error})", location=Location(results),
                                       hint="the dossier is damaged; run it again or use an archived copy") from None
         return Dossier(target, "folder", _checked_document(document, results, DamagedDossierError))
     bundle = read_bundle(target)

@@ -35,7 +35,7 @@ from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
 from typing import Any
 
-from reportgen.errors import Location, OutputError, ReportgenError
+from reportgen.errors import BundleInputError, Location, NotABundleError
 from reportgen.manifest import Manifest
 from reportgen.provenance import checksums_text, environment_lock, parse_checksums, sha256_bytes
 
@@ -49,12 +49,6 @@ BUNDLE_FORMAT = "reportgen-bundle"
 BUNDLE_FORMAT_VERSION = 1
 _ZIP_EPOCH = (1980, 1, 1, 0, 0, 0)  # the earliest date a zip entry can carry
 _ENTRY_MODE = 0o100644
-
-
-class BundleError(ReportgenError):
-    """A file given as a bundle is not a readable reportgen bundle."""
-
-    category = "Bundle error"
 
 
 @dataclass(frozen=True, slots=True)
@@ -98,7 +92,7 @@ def _safe_entry(name: str) -> bool:
 def snapshot_entries(inputs: list[Mapping[str, Any]]) -> dict[str, str]:
     """The entry name of each input (by input name) inside the bundle: see the module docstring.
 
-    Raises :class:`OutputError` for a data path that is absolute.
+    Raises :class:`BundleInputError` for a data path that is absolute or climbs above the root folder.
     """
     manifest = next(entry for entry in inputs if entry["role"] == "manifest")
     folder_names = PurePosixPath(Path(str(manifest["path"])).parent.as_posix()).parts[1:]
@@ -107,19 +101,39 @@ def snapshot_entries(inputs: list[Mapping[str, Any]]) -> dict[str, str]:
     for entry in inputs:
         text = str(entry["relative_path"]).replace("\\", "/")
         if PurePosixPath(text).is_absolute():
-            raise OutputError(f"dataset '{entry['name']}' has the absolute path {text}, which a bundle cannot hold",
-                              location=Location(str(manifest["path"]), key_path=f"datasets.{entry['name']}.path"),
-                              hint="write data paths relative to the manifest's folder, or run without --bundle")
+            raise BundleInputError(
+                problem=f"dataset '{entry['name']}' has the absolute path {text}, which a bundle cannot hold",
+                location=Location(str(manifest["path"]), key_path=f"datasets.{entry['name']}.path"),
+                remedy="write data paths relative to the manifest's folder, or run without --bundle")
         normal = posixpath.normpath(text)
         parts = PurePosixPath(normal).parts
         climb = max(climb, next((i for i, part in enumerate(parts) if part != ".."), len(parts)))
         relative[str(entry["name"])] = normal
     if climb > len(folder_names):
-        raise OutputError("a data path climbs above the root folder", location=Location(str(manifest["path"])),
-                          hint="write data paths relative to the manifest's folder, or run without --bundle")
+        raise BundleInputError(problem="a data path climbs above the root folder",
+                               location=Location(str(manifest["path"])),
+                               remedy="write data paths relative to the manifest's folder, or run without --bundle")
     kept = folder_names[len(folder_names) - climb:] if climb else ()
     base = PurePosixPath(INPUTS_FOLDER, *kept)
     return {name: posixpath.normpath(str(base / path)) for name, path in relative.items()}
+
+
+def check_bundle_inputs(manifest: Manifest) -> None:
+    """Refuse, before any analysis, a data path that a bundle cannot hold; the error points at the manifest line."""
+    inputs: list[dict[str, Any]] = [{"role": "manifest", "name": "manifest", "path": str(manifest.path),
+                                     "relative_path": manifest.path.name}]
+    inputs += [{"role": "data", "name": name, "path": str((manifest.base_dir / spec.path).resolve()),
+                "relative_path": spec.path} for name, spec in manifest.spec.datasets.items()]
+    try:
+        snapshot_entries(inputs)
+    except BundleInputError as error:
+        key_path = error.location.key_path if error.location is not None else None
+        if key_path:
+            where = manifest.locate(*key_path.split("."))
+        else:
+            first = next(iter(manifest.spec.datasets))
+            where = manifest.locate("datasets", first, "path")
+        raise BundleInputError(error.message, location=where, hint=error.hint) from None
 
 
 def _zip_time(created: str) -> tuple[int, int, int, int, int, int]:
@@ -165,11 +179,13 @@ def write_bundle(target: Path, document: Mapping[str, Any], dossier_files: Mappi
             try:
                 content = Path(str(entry["path"])).read_bytes()
             except OSError as error:
-                raise OutputError(f"cannot read {entry['path']} for the bundle: {error.strerror}",
-                                  location=Location(str(entry["path"]))) from None
+                raise BundleInputError(problem=f"cannot read {entry['path']} for the bundle: {error.strerror}",
+                                       location=Location(str(entry["path"])),
+                                       remedy="check that the file is still there and readable") from None
         if sha256_bytes(content) != entry["sha256"]:
-            raise OutputError(f"{entry['path']} changed while reportgen ran; the bundle would not match results.json",
-                              location=Location(str(entry["path"])), hint="run again once the file is final")
+            raise BundleInputError(
+                problem=f"{entry['path']} changed while reportgen ran; the bundle would not match results.json",
+                location=Location(str(entry["path"])), remedy="run again once the file is final")
         entries[where[str(entry["name"])]] = content
     entries[LOCK_ENTRY] = environment_lock().encode("utf-8")
     index = {
@@ -191,7 +207,7 @@ def write_bundle(target: Path, document: Mapping[str, Any], dossier_files: Mappi
 
 
 def read_bundle(path: Path) -> Bundle:
-    """Open a bundle and read every entry; a file that is not a reportgen bundle raises :class:`BundleError`."""
+    """Open a bundle and read every entry; a file that is not a reportgen bundle raises :class:`NotABundleError`."""
     where = Location(path)
     entries: dict[str, bytes] = {}
     damaged: list[str] = []
@@ -205,34 +221,38 @@ def read_bundle(path: Path) -> Bundle:
                 except (zipfile.BadZipFile, zlib.error, EOFError):
                     damaged.append(info.filename)
     except (zipfile.BadZipFile, zipfile.LargeZipFile, EOFError) as error:
-        raise BundleError(f"{path} is not a zip file ({error})", location=where,
-                          hint="name a dossier folder or the bundle.zip that 'reportgen run --bundle' wrote") from None
+        raise NotABundleError(problem=f"{path} is not a zip file ({error})", location=where,
+                              hint="name a dossier folder or the bundle.zip that 'reportgen run --bundle' wrote"
+                              ) from None
     except OSError as error:
-        raise BundleError(f"cannot read {path}: {error.strerror or error}", location=where) from None
+        raise NotABundleError(problem=f"cannot read {path}: {error.strerror or error}", location=where,
+                              hint="check the file's permissions") from None
     essential = [name for name in (INDEX_ENTRY, RESULTS_ENTRY) if name in damaged]
     if essential:
-        raise BundleError(f"{path} is damaged: {' and '.join(essential)} fail(s) the zip's CRC check",
-                          location=where, hint="the bundle was altered or its copy is corrupt; use another copy")
+        raise NotABundleError(problem=f"{path} is damaged: {' and '.join(essential)} fail(s) the zip's CRC check",
+                              location=where, hint="the bundle was altered or its copy is corrupt; use another copy")
     if INDEX_ENTRY not in entries or RESULTS_ENTRY not in entries:
-        raise BundleError(f"{path} is a zip file but not a reportgen bundle (no {INDEX_ENTRY} or {RESULTS_ENTRY})",
-                          location=where, hint="name the bundle.zip that 'reportgen run --bundle' wrote")
+        raise NotABundleError(
+            problem=f"{path} is a zip file but not a reportgen bundle (no {INDEX_ENTRY} or {RESULTS_ENTRY})",
+            location=where)
     try:
         index = json.loads(entries[INDEX_ENTRY].decode("utf-8"))
         json.loads(entries[RESULTS_ENTRY].decode("utf-8"))
     except (UnicodeDecodeError, ValueError) as error:
-        raise BundleError(f"{path}: {INDEX_ENTRY} or {RESULTS_ENTRY} is not readable JSON ({error})",
-                          location=where, hint="the bundle is damaged; use another copy") from None
+        raise NotABundleError(problem=f"{path}: {INDEX_ENTRY} or {RESULTS_ENTRY} is not readable JSON ({error})",
+                              location=where, hint="the bundle is damaged; use another copy") from None
     if not isinstance(index, dict) or index.get("format") != BUNDLE_FORMAT:
-        raise BundleError(f"{path} is a zip file but not a reportgen bundle ({INDEX_ENTRY} does not say so)",
-                          location=where, hint="name the bundle.zip that 'reportgen run --bundle' wrote")
+        raise NotABundleError(
+            problem=f"{path} is a zip file but not a reportgen bundle ({INDEX_ENTRY} does not say so)",
+            location=where)
     if index.get("format_version") != BUNDLE_FORMAT_VERSION:
-        raise BundleError(f"{path} is a bundle of format version {index.get('format_version')}; this reportgen "
-                          f"reads version {BUNDLE_FORMAT_VERSION}", location=where,
-                          hint="verify it with the reportgen version that wrote it")
+        raise NotABundleError(problem=f"{path} is a bundle of format version {index.get('format_version')}; this "
+                                      f"reportgen reads version {BUNDLE_FORMAT_VERSION}", location=where,
+                              hint="verify it with the reportgen version that wrote it")
     for item in index.get("inputs", []):
         if not isinstance(item, dict) or not _safe_entry(str(item.get("entry", ""))):
-            raise BundleError(f"{path}: {INDEX_ENTRY} names an input entry outside the bundle: {item!r}",
-                              location=where, hint="the bundle is damaged or was altered; use another copy")
+            raise NotABundleError(problem=f"{path}: {INDEX_ENTRY} names an input entry outside the bundle: {item!r}",
+                                  location=where, hint="the bundle is damaged or was altered; use another copy")
     return Bundle(path=path, index=index, entries=entries, damaged=tuple(damaged))
 
 

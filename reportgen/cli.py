@@ -4,6 +4,7 @@ Commands:
   reportgen run MANIFEST --out DIR [--format html,pdf|json] [--bundle] [--force] [--fail-on CONDITION]
   reportgen verify DIR_OR_BUNDLE [--recompute] [--tolerance 1e-9]
   reportgen diff OLD NEW [--html FILE] [--tolerance 1e-6] [--exit-code]
+  reportgen explain [CODE]
 
 Exit status (the one place it is decided):
   0  success: the run wrote its dossier; verify found everything as recorded; diff ran (with or
@@ -133,6 +134,9 @@ def build_parser() -> argparse.ArgumentParser:
     diff.add_argument("--exit-code", action="store_true", dest="exit_code",
                       help="exit with status 1 when there are differences (default: 0 either way)")
     diff.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    explain = commands.add_parser("explain", help="describe an error code (as printed in error[CODE]), or list them")
+    explain.add_argument("code", nargs="?", metavar="CODE", help="an error code such as non-numeric; omit to list all")
     return parser
 
 
@@ -200,14 +204,15 @@ def _verify_command(options: argparse.Namespace, arguments: Sequence[str]) -> in
 
 
 def _write_page(path: Path, text: str) -> None:
-    from reportgen.errors import Location, OutputError
+    from reportgen.errors import Location, PageTargetError
 
     if path.is_dir():
-        raise OutputError(f"{path} is a folder; --html needs a file name", location=Location(path),
-                          hint="name the page, e.g. --html changes.html")
+        raise PageTargetError(location=Location(path), problem=f"{path} is a folder; --html needs a file name",
+                              remedy="name the page, e.g. --html changes.html")
     if not path.parent.is_dir():
-        raise OutputError(f"cannot write {path}: the folder {path.parent} does not exist", location=Location(path),
-                          hint="create the folder first or choose another path")
+        raise PageTargetError(location=Location(path),
+                              problem=f"cannot write {path}: the folder {path.parent} does not exist",
+                              remedy="create the folder first or choose another path")
     handle, name = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
     try:
         with os.fdopen(handle, "w", encoding="utf-8") as stream:
@@ -237,7 +242,27 @@ def _diff_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
     return EXIT_CONDITION if options.exit_code and changes.rows else EXIT_OK
 
 
-_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command}
+def _explain_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.errors import CATALOGUE, explain
+
+    if options.code is None:
+        width = max(len(code) for code in CATALOGUE)
+        for code, entry in CATALOGUE.items():
+            print(f"{code:<{width}}  {(entry.__doc__ or '').strip().splitlines()[0]}")
+        return EXIT_OK
+    if options.code not in CATALOGUE:
+        import difflib
+
+        close = difflib.get_close_matches(options.code, list(CATALOGUE), n=1)
+        suggestion = f"did you mean '{close[0]}'? " if close else ""
+        print(f"reportgen: error: no error code '{options.code}'\n  hint: {suggestion}'reportgen explain' lists them",
+              file=sys.stderr)
+        return EXIT_USAGE
+    print(explain(options.code))
+    return EXIT_OK
+
+
+_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command, "explain": _explain_command}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -257,6 +282,10 @@ def main(argv: Sequence[str] | None = None) -> int:
             traceback.print_exc()
         print(error.render(), file=sys.stderr)
         return EXIT_USAGE
+    except BrokenPipeError:  # the reader of our output went away (``| head``): not an error of ours
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return EXIT_OK
     except KeyboardInterrupt:
         print(f"reportgen: interrupted{unchanged}", file=sys.stderr)
         return 130

@@ -475,7 +475,8 @@ class SeriesTooShortError(InsufficientDataError):
     code = "too-short"
     template = ("series '{series}' has {count} observation(s) ({span}); the unit-root tests need at least "
                 "{minimum}")
-    fix = "use a longer sample, or drop transforms that cost observations (each diff or lag costs one)"
+    fix = ("use a longer sample or drop transforms that cost observations, or set 'too_short: report' on the series "
+           "(or in settings) to keep it in the dossier with its order undetermined")
 
 
 class SampleTooShortError(InsufficientDataError):
@@ -650,6 +651,14 @@ class TemplateSyntaxError(TemplateError):
     fix = "fix the template, or remove it to use the packaged one"
 
 
+class TemplateNameRefusedError(TemplateError):
+    """A template included or extended by an absolute name, a name with '..', or a link out of its folder."""
+
+    code = "template-name-refused"
+    template = "{problem}"
+    fix = "include or extend templates by their name inside a template folder, e.g. 'partials/cover.html.j2'"
+
+
 class TemplateNotFoundError(TemplateError):
     """A user template that includes or extends a template that does not exist."""
 
@@ -672,6 +681,14 @@ class StylesheetUnsafeError(TemplateError):
     code = "stylesheet-unsafe"
     template = "style.css must not contain a closing </style> tag"
     fix = "remove the tag from the stylesheet"
+
+
+class ResourceUnreadableError(TemplateError):
+    """A resource the dossier may load that cannot be read: a file that vanished, an undecodable data: URL."""
+
+    code = "resource-unreadable"
+    template = "{problem}"
+    fix = "check that the file exists and is readable, or fix the data: URL"
 
 
 class ResourceRefusedError(TemplateError):
@@ -713,7 +730,9 @@ def explain(code: str) -> str:
     """A catalogue entry in words: its code, category, description, message and fix."""
     entry = CATALOGUE[code]
     description = (entry.__doc__ or "").strip().splitlines()[0]
-    lines = [f"{code} ({entry.category.lower()}): {description}", f"  message: {entry.template}"]
+    lines = [f"{code} ({entry.category.lower()}): {description}"]
+    if entry.template.strip("{}") != "problem":
+        lines.append(f"  message: {entry.template}")
     if entry.fix:
         lines.append(f"  fix:     {entry.fix}")
     lines.append("  exit status 2; the file, line and field are named; no dossier is written or changed")

@@ -27,7 +27,7 @@ class Formula:
         return (self.dependent, *self.regressors)
 
 
-class FormulaSyntaxError(ValueError):
+class FormulaGrammarError(ValueError):
     """A formula that does not follow the grammar; ``position`` is the 0-based offending column."""
 
     def __init__(self, message: str, text: str, position: int) -> None:
@@ -50,7 +50,7 @@ def _tokens(text: str) -> list[tuple[str, str, int]]:
         match = _TOKEN.match(text, position)
         if match is None:
             start = position + (len(text[position:]) - len(text[position:].lstrip()))
-            raise FormulaSyntaxError(
+            raise FormulaGrammarError(
                 f"unexpected character {text[start]!r}; a formula holds series names, '~' and '+' only",
                 text,
                 start,
@@ -62,17 +62,17 @@ def _tokens(text: str) -> list[tuple[str, str, int]]:
 
 
 def parse_formula(text: str) -> Formula:
-    """Parse ``y ~ x1 + x2``; raise :class:`FormulaSyntaxError` with the position on any error."""
+    """Parse ``y ~ x1 + x2``; raise :class:`FormulaGrammarError` with the position on any error."""
     tokens = _tokens(text)
     if not tokens:
-        raise FormulaSyntaxError("the formula is empty; write it as 'y ~ x1 + x2'", text, 0)
+        raise FormulaGrammarError("the formula is empty; write it as 'y ~ x1 + x2'", text, 0)
     kind, value, position = tokens[0]
     if kind != "name":
-        raise FormulaSyntaxError("a formula starts with the dependent series' name", text, position)
+        raise FormulaGrammarError("a formula starts with the dependent series' name", text, position)
     dependent = value
     if len(tokens) < 2 or tokens[1][1] != "~":
         where = tokens[1][2] if len(tokens) > 1 else len(text)
-        raise FormulaSyntaxError("expected '~' after the dependent series", text, where)
+        raise FormulaGrammarError("expected '~' after the dependent series", text, where)
     regressors: list[str] = []
     expect_name = True
     last_position = tokens[1][2]
@@ -80,16 +80,17 @@ def parse_formula(text: str) -> Formula:
         last_position = position
         if expect_name:
             if kind != "name":
-                raise FormulaSyntaxError("expected a series name", text, position)
+                raise FormulaGrammarError("expected a series name", text, position)
             if value == dependent:
-                raise FormulaSyntaxError(f"'{value}' is the dependent series and cannot be a regressor", text, position)
+                raise FormulaGrammarError(f"'{value}' is the dependent series and cannot be a regressor", text,
+                                          position)
             if value in regressors:
-                raise FormulaSyntaxError(f"'{value}' appears twice among the regressors", text, position)
+                raise FormulaGrammarError(f"'{value}' appears twice among the regressors", text, position)
             regressors.append(value)
         elif value != "+":
-            raise FormulaSyntaxError("expected '+' between regressors", text, position)
+            raise FormulaGrammarError("expected '+' between regressors", text, position)
         expect_name = not expect_name
     if expect_name:
         where = len(text.rstrip()) if regressors else last_position + 1
-        raise FormulaSyntaxError("expected a series name after this point", text, where)
+        raise FormulaGrammarError("expected a series name after this point", text, where)
     return Formula(text=text, dependent=dependent, regressors=tuple(regressors))

@@ -19,12 +19,45 @@ from typing import Any, Literal
 import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
-from reportgen.errors import FormulaError, Location, ManifestError, ManifestErrors
-from reportgen.formula import Formula, FormulaSyntaxError, parse_formula
+from reportgen.errors import (
+    BadNameError,
+    DuplicateKeyError,
+    FormulaSyntaxError,
+    InvalidValueError,
+    Location,
+    ManifestEmptyError,
+    ManifestEncodingError,
+    ManifestError,
+    ManifestErrors,
+    ManifestIsFolderError,
+    ManifestNotFoundError,
+    ManifestNotMappingError,
+    ManifestUnreadableError,
+    MissingKeyError,
+    TransformParameterError,
+    UnknownDatasetError,
+    UnknownKeyError,
+    UnknownSeriesError,
+    UnknownTransformError,
+    WrongTypeError,
+    YamlSyntaxError,
+    YamlUnsupportedError,
+)
+from reportgen.formula import Formula, FormulaGrammarError, parse_formula
 from reportgen.transforms import Step
-from reportgen.vocabulary import DeterministicPolicy, Frequency, LagCriterion, TransformName, allowed
+from reportgen.vocabulary import (
+    DeterministicPolicy,
+    Frequency,
+    LagCriterion,
+    MissingPolicy,
+    TooShortPolicy,
+    TransformName,
+    allowed,
+)
 
 KeyPath = tuple[str | int, ...]
+#: The longest lag, difference or season a transform step may take.
+_LONGEST_STEP = 1000
 _NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
 _BOOL_TAG = "tag:yaml.org,2002:bool"
 _STRICT_BOOL = re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$")
@@ -58,21 +91,29 @@ class ProjectSpec(_Model):
 
 
 class DatasetSpec(_Model):
-    """A data file: its path (relative to the manifest), its date column, optional frequency."""
+    """A data file: its path (relative to the manifest), its date column, optional frequency.
+
+    ``missing`` is the missing-data policy of its columns (a series may override it); ``sort``
+    lets rows out of date order be sorted instead of refused.
+    """
 
     path: str = Field(min_length=1)
     index: str = Field(min_length=1)
     frequency: Frequency | None = None
+    missing: MissingPolicy = "error"
+    sort: bool = False
 
 
 class SeriesSpec(_Model):
-    """A series: a column of a dataset, an optional transform chain, a label, an override."""
+    """A series: a column of a dataset, an optional transform chain, a label, overrides of the settings."""
 
     dataset: str
     column: str = Field(min_length=1)
     transform: list[TransformName | dict[TransformName, int]] = Field(default_factory=list)
     label: str | None = None
     deterministic: DeterministicPolicy | None = None
+    missing: MissingPolicy | None = None
+    too_short: TooShortPolicy | None = None
 
 
 class SampleSpec(_Model):
@@ -88,6 +129,7 @@ class RegressionSpec(_Model):
     formula: str = Field(min_length=1)
     label: str | None = None
     sample: SampleSpec | None = None
+    too_short: TooShortPolicy | None = None
 
 
 class SettingsSpec(_Model):
@@ -98,6 +140,7 @@ class SettingsSpec(_Model):
     lag_criterion: LagCriterion = "aic"
     deterministic: DeterministicPolicy = "auto"
     seed: int = Field(default=20240601, ge=0, le=2**32 - 1)
+    too_short: TooShortPolicy = "error"
 
 
 class ManifestSpec(_Model):
@@ -143,33 +186,61 @@ class Manifest:
 # ---------------------------------------------------------------- YAML with positions
 
 
+#: The tags a plain YAML document carries implicitly; any other (``!!python/...``, ``!custom``) is refused.
+_PLAIN_TAGS = frozenset(f"tag:yaml.org,2002:{name}" for name in ("str", "int", "float", "bool", "null", "map", "seq"))
+
+
+def _refuse_tag(node: yaml.Node, file: Path) -> None:
+    """Refuse explicit tags: a manifest is plain data, and a tag is how YAML asks for objects."""
+    if node.tag not in _PLAIN_TAGS:
+        mark = node.start_mark
+        raise YamlUnsupportedError(location=Location(file, mark.line + 1, mark.column + 1),
+                                   feature=f"the YAML tag '{node.tag}'",
+                                   remedy="remove the tag; a manifest holds plain text, numbers, lists and mappings")
+
+
 def _construct(loader: _StrictLoader, node: yaml.Node, path: KeyPath, positions: dict[KeyPath, tuple[int, int]],
-               file: Path) -> Any:
+               file: Path, seen: set[int] | None = None) -> Any:
+    seen = set() if seen is None else seen
+    if isinstance(node, yaml.CollectionNode):
+        if id(node) in seen:  # an alias: refused, so that a few lines cannot expand into millions of values
+            mark = node.start_mark
+            raise YamlUnsupportedError(location=Location(file, mark.line + 1, mark.column + 1),
+                                       feature="YAML anchors and aliases ('&name', '*name')",
+                                       remedy="write the values out in full")
+        seen.add(id(node))
+    _refuse_tag(node, file)
     if isinstance(node, yaml.MappingNode):
         result: dict[str, Any] = {}
         for key_node, value_node in node.value:
             where = Location(file, key_node.start_mark.line + 1, key_node.start_mark.column + 1)
             if key_node.tag == "tag:yaml.org,2002:merge" or key_node.value == "<<":
-                raise ManifestError("YAML merge keys ('<<') are not supported in a manifest", location=where,
-                                    hint="write the keys out in full")
+                raise YamlUnsupportedError(location=where, feature="YAML merge keys ('<<')",
+                                           remedy="write the keys out in full")
+            _refuse_tag(key_node, file)
             key = loader.construct_object(key_node, deep=True)
             if not isinstance(key, str):
-                raise ManifestError(f"keys must be text; found {key!r}", location=where,
-                                    hint="quote the key or rename it")
+                raise YamlUnsupportedError(location=where, feature=f"a key that is not text ({key!r})",
+                                           remedy="quote the key or rename it")
             if key in result:
                 first = positions[(*path, key)]
-                raise ManifestError(f"duplicate key '{key}' (first given on line {first[0]})", location=where,
-                                    hint="remove or rename one of the two entries")
+                raise DuplicateKeyError(location=where, key=key, first_line=first[0])
             positions[(*path, key)] = (where.line or 0, where.column or 0)
-            result[key] = _construct(loader, value_node, (*path, key), positions, file)
+            result[key] = _construct(loader, value_node, (*path, key), positions, file, seen)
         return result
     if isinstance(node, yaml.SequenceNode):
         items = []
         for index, item in enumerate(node.value):
             positions[(*path, index)] = (item.start_mark.line + 1, item.start_mark.column + 1)
-            items.append(_construct(loader, item, (*path, index), positions, file))
+            items.append(_construct(loader, item, (*path, index), positions, file, seen))
         return items
     return loader.construct_object(node, deep=True)
+
+
+def _byte_position(raw: bytes, offset: int) -> tuple[int, int]:
+    """The 1-based line and column (in bytes) of a byte offset, for encoding errors."""
+    before = raw[:offset]
+    return before.count(b"\n") + 1, offset - (before.rfind(b"\n") + 1) + 1
 
 
 def read_yaml(path: Path) -> tuple[bytes, Any, dict[KeyPath, tuple[int, int]]]:
@@ -177,18 +248,16 @@ def read_yaml(path: Path) -> tuple[bytes, Any, dict[KeyPath, tuple[int, int]]]:
     try:
         raw = path.read_bytes()
     except FileNotFoundError:
-        raise ManifestError("manifest file not found", location=Location(path),
-                            hint="check the path; relative paths start from the current folder") from None
+        raise ManifestNotFoundError(location=Location(path)) from None
     except IsADirectoryError:
-        raise ManifestError("this is a folder, not a manifest file", location=Location(path),
-                            hint="name the manifest's .yaml file") from None
+        raise ManifestIsFolderError(location=Location(path)) from None
     except OSError as error:
-        raise ManifestError(f"cannot read the manifest: {error.strerror}", location=Location(path)) from None
+        raise ManifestUnreadableError(location=Location(path), reason=error.strerror or str(error)) from None
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as error:
-        raise ManifestError(f"the manifest is not UTF-8 text (byte {error.start})", location=Location(path),
-                            hint="save the file as UTF-8") from None
+        line, column = _byte_position(raw, error.start)
+        raise ManifestEncodingError(location=Location(path, line, column), offset=error.start) from None
     positions: dict[KeyPath, tuple[int, int]] = {(): (1, 1)}
     loader: _StrictLoader | None = None
     try:
@@ -199,10 +268,18 @@ def read_yaml(path: Path) -> tuple[bytes, Any, dict[KeyPath, tuple[int, int]]]:
         mark = error.problem_mark or error.context_mark
         line, column = (mark.line + 1, mark.column + 1) if mark is not None else (None, None)
         problem = error.problem or error.context or "invalid YAML"
-        raise ManifestError(f"YAML syntax error: {problem}", location=Location(path, line, column),
-                            hint="check indentation, colons and quotes near this point") from None
+        raise YamlSyntaxError(location=Location(path, line, column), problem=problem) from None
+    except yaml.reader.ReaderError as error:
+        before = text[:error.position]
+        line, column = before.count("\n") + 1, len(before) - (before.rfind("\n") + 1) + 1
+        character = f"#x{error.character:04x}" if isinstance(error.character, int) else repr(error.character)
+        raise YamlSyntaxError(location=Location(path, line, column),
+                              problem=f"unacceptable character {character}: {error.reason}") from None
     except yaml.YAMLError as error:
-        raise ManifestError(f"YAML error: {error}", location=Location(path)) from None
+        raise YamlSyntaxError(location=Location(path), problem=str(error)) from None
+    except RecursionError:
+        raise YamlUnsupportedError(location=Location(path), feature="nesting this deep",
+                                   remedy="a manifest is a few levels deep; check for a runaway structure") from None
     finally:
         if loader is not None:
             loader.dispose()
@@ -212,26 +289,51 @@ def read_yaml(path: Path) -> tuple[bytes, Any, dict[KeyPath, tuple[int, int]]]:
 # ---------------------------------------------------------------- validation
 
 
-def _describe_expected(error: Mapping[str, Any]) -> str:
-    kind = error["type"]
-    context = error.get("ctx") or {}
+def _shown(value: Any) -> str:
+    """A value as a message shows it: scalars as written, containers by kind."""
+    if isinstance(value, dict):
+        return "a mapping"
+    if isinstance(value, list):
+        return "a list"
+    return repr(value)
+
+
+def _suggestion(got: Any, options: list[str], listing: str) -> str:
+    close = difflib.get_close_matches(str(got), options, n=1) if isinstance(got, str) else []
+    return f"did you mean '{close[0]}'? {listing}".strip() if close else listing
+
+
+def _schema_error(item: Mapping[str, Any], loc: KeyPath, where: Location) -> ManifestError:
+    """One pydantic validation error as the catalogue entry that explains it."""
+    kind = item["type"]
+    context = item.get("ctx") or {}
+    got = item.get("input")
     if kind == "missing":
-        return "this field is required"
+        return MissingKeyError(location=where)
     if kind in {"literal_error", "enum"}:
-        return f"expected one of {context.get('expected', '')}; got {error.get('input')!r}"
+        expected = str(context.get("expected", ""))
+        options = [part.strip(" '") for part in expected.replace(" or ", ", ").split(",") if part.strip(" '")]
+        if "transform" in loc and isinstance(got, str):
+            return UnknownTransformError(location=where, name=got,
+                                         suggestion=_suggestion(got, options, f"transforms: {', '.join(options)}"))
+        return InvalidValueError(location=where, problem=f"expected one of {expected}; got {_shown(got)}",
+                                 remedy=_suggestion(got, options, "") if isinstance(got, str) else "")
     if kind == "string_type":
-        return f"expected text; got {error.get('input')!r} — quote it"
-    if kind in {"int_type", "int_from_float"}:
-        return f"expected a whole number; got {error.get('input')!r}"
-    if kind == "dict_type":
-        return "expected a mapping of names to entries"
+        return WrongTypeError(location=where, expected="text", got=_shown(got),
+                              remedy=f"quote it: '{got}'" if not isinstance(got, dict | list) else "write it as text")
+    if kind in {"int_type", "int_from_float", "int_parsing"}:
+        return WrongTypeError(location=where, expected="a whole number", got=_shown(got),
+                              remedy="write it without quotes or decimals")
+    if kind == "bool_type":
+        return WrongTypeError(location=where, expected="true or false", got=_shown(got), remedy="")
+    if kind in {"dict_type", "model_type"}:
+        return WrongTypeError(location=where, expected="a mapping of keys to values", got=_shown(got),
+                              remedy="write 'key: value' pairs indented under this key")
     if kind == "list_type":
-        return "expected a list, e.g. [log, diff]"
+        return WrongTypeError(location=where, expected="a list, e.g. [log, diff]", got=_shown(got), remedy="")
     if kind == "too_short":
-        return "at least one entry is required"
-    if kind == "model_type":
-        return "expected a mapping of keys to values"
-    return str(error.get("msg", "invalid value"))
+        return InvalidValueError(location=where, problem="at least one entry is required", remedy="")
+    return InvalidValueError(location=where, problem=str(item.get("msg", "invalid value")), remedy="")
 
 
 def _fields_of(model: type[BaseModel], path: KeyPath) -> list[str]:
@@ -279,12 +381,12 @@ def _model_errors(error: ValidationError, file: Path,
             options = _fields_of(ManifestSpec, loc[:-1])
             close = difflib.get_close_matches(name, options, n=1)
             if close:
-                hint: str | None = f"did you mean '{close[0]}'?"
+                suggestion = f"did you mean '{close[0]}'?"
             else:
-                hint = f"allowed keys: {', '.join(options)}" if options else None
-            problems.append(ManifestError(f"unknown key '{name}'", location=where, hint=hint))
+                suggestion = f"allowed keys: {', '.join(options)}" if options else ""
+            problems.append(UnknownKeyError(location=where, key=name, suggestion=suggestion))
         else:
-            problems.append(ManifestError(_describe_expected(item), location=where))
+            problems.append(_schema_error(item, loc, where))
     return _drop_union_noise(problems)
 
 
@@ -308,9 +410,7 @@ def _check_names(spec: ManifestSpec, manifest_path: Path, locate: Any) -> list[M
     for section in ("datasets", "series", "regressions"):
         for name in getattr(spec, section):
             if not _NAME.match(name):
-                problems.append(ManifestError(
-                    f"'{name}' is not a usable name", location=locate(section, name),
-                    hint="use letters, digits and underscores, starting with a letter (names appear in formulas)"))
+                problems.append(BadNameError(location=locate(section, name), name=name))
     return problems
 
 
@@ -333,23 +433,31 @@ def _cross_check(spec: ManifestSpec, locate: Any) -> tuple[list[ManifestError], 
         if series.dataset not in spec.datasets:
             close = difflib.get_close_matches(series.dataset, list(spec.datasets), n=1)
             hint = f"did you mean '{close[0]}'?" if close else f"datasets declared: {', '.join(spec.datasets)}"
-            problems.append(ManifestError(f"unknown dataset '{series.dataset}'",
-                                          location=locate("series", name, "dataset"), hint=hint))
+            problems.append(UnknownDatasetError(location=locate("series", name, "dataset"), name=series.dataset,
+                                                suggestion=hint))
         for position, item in enumerate(series.transform):
             if isinstance(item, dict):
                 if len(item) != 1:
-                    problems.append(ManifestError(
-                        "a parameterised transform has exactly one key, e.g. {lag: 2}",
-                        location=locate("series", name, "transform", position)))
+                    problems.append(TransformParameterError(
+                        location=locate("series", name, "transform", position),
+                        problem="a parameterised transform has exactly one key, e.g. {lag: 2}",
+                        remedy="write one step per list item: [log, {lag: 2}]"))
                     continue
                 ((step, parameter),) = item.items()
                 if step in {"log", "log-diff", "growth"}:
-                    problems.append(ManifestError(f"'{step}' takes no parameter",
-                                                  location=locate("series", name, "transform", position),
-                                                  hint=f"write it as plain '{step}'"))
+                    problems.append(TransformParameterError(location=locate("series", name, "transform", position),
+                                                            problem=f"'{step}' takes no parameter",
+                                                            remedy=f"write it as plain '{step}'"))
                 elif parameter < 1:
-                    problems.append(ManifestError(f"'{step}' needs a whole number of at least 1; got {parameter}",
-                                                  location=locate("series", name, "transform", position)))
+                    problems.append(TransformParameterError(
+                        location=locate("series", name, "transform", position),
+                        problem=f"'{step}' needs a whole number of at least 1; got {parameter}",
+                        remedy=f"write it as {{{step}: 1}} or larger"))
+                elif parameter > _LONGEST_STEP:
+                    problems.append(TransformParameterError(
+                        location=locate("series", name, "transform", position),
+                        problem=f"'{step}' of {parameter} periods is more than reportgen accepts ({_LONGEST_STEP})",
+                        remedy="check the number; a season or lag is a few dozen periods at most"))
         if not any(p.location and p.location.key_path and p.location.key_path.startswith(f"series.{name}.transform")
                    for p in problems):
             transforms[name] = _transform_steps(series)
@@ -358,16 +466,15 @@ def _cross_check(spec: ManifestSpec, locate: Any) -> tuple[list[ManifestError], 
         where = locate("regressions", name, "formula")
         try:
             formula = parse_formula(regression.formula)
-        except FormulaSyntaxError as error:
-            problems.append(FormulaError(f"{error.message}\n    {error.caret().replace(chr(10), chr(10) + '    ')}",
-                                         location=where, hint="write formulas as 'y ~ x1 + x2' with series names"))
+        except FormulaGrammarError as error:
+            problems.append(FormulaSyntaxError(location=where, problem=error.message,
+                                               caret=error.caret().replace("\n", "\n    ")))
             continue
         unknown = [variable for variable in formula.variables if variable not in spec.series]
         for variable in unknown:
             close = difflib.get_close_matches(variable, list(spec.series), n=1)
             hint = f"did you mean '{close[0]}'?" if close else "declare it under 'series' first"
-            problems.append(FormulaError(f"the formula uses '{variable}', which is not a declared series",
-                                         location=where, hint=hint))
+            problems.append(UnknownSeriesError(location=where, name=variable, suggestion=hint))
         if not unknown:
             formulas[name] = formula
     return problems, formulas, transforms
@@ -378,12 +485,10 @@ def load_manifest(path: Path | str) -> Manifest:
     file = Path(path)
     raw, data, positions = read_yaml(file)
     if data is None:
-        raise ManifestError("the manifest is empty", location=Location(file),
-                            hint="start from manifests/demo.yaml; a manifest needs reportgen, project, datasets "
-                                 "and series")
+        raise ManifestEmptyError(location=Location(file))
     if not isinstance(data, dict):
-        raise ManifestError(f"the manifest must be a mapping of sections; found a {type(data).__name__}",
-                            location=Location(file, 1, 1), hint="write 'reportgen: 1' and the sections as keys")
+        found = {list: "a list", str: "a line of text"}.get(type(data), f"a {type(data).__name__}")
+        raise ManifestNotMappingError(location=Location(file, 1, 1), found=found)
     try:
         spec = ManifestSpec.model_validate(data)
     except ValidationError as error:

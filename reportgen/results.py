@@ -77,6 +77,9 @@ class SeriesRecord:
     values: tuple[float, ...]
     verdict: OrderVerdict
     notes: tuple[str, ...] = ()
+    missing_policy: str = "error"  # the missing-data policy applied to the column
+    dropped: tuple[str, ...] = ()  # empty periods before the first or after the last value, left out
+    interpolated: tuple[str, ...] = ()  # interior periods filled by linear interpolation
 
 
 @dataclass(frozen=True, slots=True)
@@ -141,6 +144,8 @@ def results_to_dict(results: Results) -> dict[str, Any]:
             "start": record.start,
             "end": record.end,
             "nobs": len(record.values),
+            "missing": {"policy": record.missing_policy, "dropped": list(record.dropped),
+                        "interpolated": list(record.interpolated)},
             "order": verdict["order"],
             "reason": verdict["reason"],
             "deterministic": verdict["deterministic"],

@@ -26,12 +26,25 @@ from typing import Any
 import pandas as pd
 
 from reportgen import __version__
-from reportgen.errors import DataError, InsufficientDataError, Location, OutputError
+from reportgen.errors import (
+    DataError,
+    InsufficientDataError,
+    Location,
+    MixedFrequenciesError,
+    OutputForeignError,
+    OutputIsFileError,
+    OutputOtherDossierError,
+    OutputUnreadableResultsError,
+    OutputUnwritableError,
+    SampleBoundError,
+    SampleTooShortError,
+    SeriesTooShortError,
+)
 from reportgen.manifest import Manifest, load_manifest
 from reportgen.periods import index_labels, period_label
 from reportgen.provenance import build_time, checksums_text, document_run_id, environment, run_id, sha256_bytes
 from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dumps, results_to_dict
-from reportgen.sources import Table, canonical_table_hash, parse_period, read_table
+from reportgen.sources import Column, Table, canonical_table_hash, parse_period, read_table
 from reportgen.stats.methods import methods_text
 from reportgen.stats.order import integration_order
 from reportgen.stats.regression import assess_regression
@@ -63,6 +76,19 @@ def _quiet(_: str) -> None:
     return None
 
 
+def outside_project(manifest: Manifest, relative: str) -> str | None:
+    """A sentence when a data path leaves the manifest's folder (by ``..``, an absolute path or a link), else None."""
+    given = manifest.base_dir / relative
+    resolved = given.resolve()
+    if resolved.is_relative_to(manifest.base_dir):
+        return None
+    linked = any(part.is_symlink() for part in (given, *given.parents) if part.is_relative_to(manifest.base_dir))
+    how = "through a symbolic link" if linked else "by its path"
+    return (f"{relative} lies outside the project folder (the manifest's folder), {how}; its resolved path is "
+            "recorded with the inputs and its bytes are hashed as read, but a copy of the project folder alone "
+            "cannot reproduce the dossier")
+
+
 def load_tables(manifest: Manifest) -> dict[str, Table]:
     """Read every dataset the manifest declares (in manifest order)."""
     tables: dict[str, Table] = {}
@@ -70,25 +96,66 @@ def load_tables(manifest: Manifest) -> dict[str, Table]:
         path = (manifest.base_dir / spec.path).resolve()
         tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
                                   manifest.locate("datasets", name, "path"),
-                                  manifest.locate("datasets", name, "index"))
+                                  manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort,
+                                  shown_path=str(manifest.display_path.parent / spec.path))
     return tables
 
 
-def build_series(manifest: Manifest, tables: Mapping[str, Table]) -> dict[str, tuple[pd.Series, str, tuple[str, ...]]]:
-    """Each declared series as analysed: its values, lineage and notes."""
-    built: dict[str, tuple[pd.Series, str, tuple[str, ...]]] = {}
+@dataclass(frozen=True, slots=True)
+class BuiltSeries:
+    """A series as analysed, with its lineage, notes and what its missing-data policy did."""
+
+    values: pd.Series
+    lineage: str
+    notes: tuple[str, ...]
+    column: Column
+
+
+def _too_short(manifest: Manifest, name: str) -> str:
+    """The too-short policy of a series: its own, else the settings'."""
+    return manifest.spec.series[name].too_short or manifest.spec.settings.too_short
+
+
+def build_series(manifest: Manifest, tables: Mapping[str, Table]) -> dict[str, BuiltSeries]:
+    """Each declared series as analysed: its column under its missing-data policy, then its transforms."""
+    built: dict[str, BuiltSeries] = {}
     for name, spec in manifest.spec.series.items():
         table = tables[spec.dataset]
-        raw = table.column(spec.column, manifest.locate("series", name, "column"))
+        column = table.column(spec.column, manifest.locate("series", name, "column"), spec.missing)
+        raw = column.values
         notes: list[str] = []
-        if raw.index[0] != table.periods[0] or raw.index[-1] != table.periods[-1]:
+        if column.dropped:
             notes.append(f"column '{spec.column}' holds values from {period_label(raw.index[0])} to "
                          f"{period_label(raw.index[-1])}; the dataset runs from {period_label(table.periods[0])} "
                          f"to {period_label(table.periods[-1])}")
+        notes.extend(column.describe())
         steps = manifest.transforms[name]
         values = apply_transforms(raw, steps, table.frequency, manifest.locate("series", name, "transform"))
-        built[name] = (values.rename(name), lineage_of(spec.column, steps, table.frequency), tuple(notes))
+        built[name] = BuiltSeries(values.rename(name), lineage_of(spec.column, steps, table.frequency),
+                                  tuple(notes), column)
     return built
+
+
+def refuse_short_series(manifest: Manifest, built: Mapping[str, BuiltSeries]) -> None:
+    """Raise :class:`SeriesTooShortError` for the first series too short to test, unless its policy says report.
+
+    A series needs ``min_observations`` at its highest differencing level (``max_order``), so
+    ``min_observations + max_order`` in all.
+    """
+    settings = manifest.spec.settings
+    floor = StatsSettings().min_observations
+    minimum = floor + settings.max_order
+    for name, item in built.items():
+        values = item.values
+        if len(values) >= minimum or _too_short(manifest, name) != "error":
+            continue
+        span = f"{period_label(values.index[0])} to {period_label(values.index[-1])}"
+        lost = len(item.column.values) - len(values)
+        after = f"after {lost} lost to transforms, " if lost else ""
+        raise SeriesTooShortError(location=manifest.locate("series", name), series=name, count=len(values),
+                                  span=f"{after}{span}",
+                                  minimum=f"{minimum} ({floor} at the highest differencing level, "
+                                          f"{settings.max_order})")
 
 
 def _stats_settings(manifest: Manifest) -> StatsSettings:
@@ -107,8 +174,7 @@ def regression_data(manifest: Manifest, name: str, series: Mapping[str, pd.Serie
     used = {variable: frequencies[variable] for variable in formula.variables}
     if len(set(used.values())) > 1:
         listing = ", ".join(f"{variable} is {frequency}" for variable, frequency in used.items())
-        raise DataError(f"regression '{name}' mixes frequencies ({listing})", location=where,
-                        hint="regress series of one frequency; convert a dataset first")
+        raise MixedFrequenciesError(location=where, regression=name, listing=listing)
     frequency = next(iter(used.values()))
     frame = pd.concat([series[variable] for variable in formula.variables], axis=1, join="inner")
     if spec.sample is not None:
@@ -118,9 +184,8 @@ def regression_data(manifest: Manifest, name: str, series: Mapping[str, pd.Serie
                 continue
             period = parse_period(text, frequency, how)
             if period is None:
-                raise DataError(f"cannot read the sample {bound} '{text}' as a {frequency} period",
-                                location=manifest.locate("regressions", name, "sample", bound),
-                                hint="write periods as 2010, 2010Q1, 2010-01 or 2010-01-31")
+                raise SampleBoundError(location=manifest.locate("regressions", name, "sample", bound), bound=bound,
+                                       text=text, frequency=frequency)
             frame = frame[frame.index >= period] if bound == "start" else frame[frame.index <= period]
     return frame
 
@@ -141,10 +206,12 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
     progress("reading data")
     tables = load_tables(manifest)
     built = build_series(manifest, tables)
+    refuse_short_series(manifest, built)
     frequencies = {name: tables[manifest.spec.series[name].dataset].frequency for name in built}
 
     records: dict[str, SeriesRecord] = {}
-    for position, (name, (values, lineage, notes)) in enumerate(built.items(), start=1):
+    for position, (name, item) in enumerate(built.items(), start=1):
+        values, lineage, notes = item.values, item.lineage, item.notes
         progress(f"order of integration {position}/{len(built)}: {name}")
         spec = manifest.spec.series[name]
         with warnings.catch_warnings(record=True) as caught:
@@ -157,17 +224,23 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
                              for step in manifest.transforms[name]),
             lineage=lineage, frequency=frequencies[name], start=period_label(values.index[0]),
             end=period_label(values.index[-1]), dates=index_labels(values.index),
-            values=tuple(float(v) for v in values.to_numpy()), verdict=verdict, notes=notes + extra)
+            values=tuple(float(v) for v in values.to_numpy()), verdict=verdict, notes=notes + extra,
+            missing_policy=item.column.policy, dropped=item.column.dropped, interpolated=item.column.interpolated)
 
     assessments: dict[str, RegressionAssessment] = {}
-    series_values = {name: values for name, (values, _, _) in built.items()}
+    series_values = {name: item.values for name, item in built.items()}
     for position, (name, formula) in enumerate(manifest.formulas.items(), start=1):
         progress(f"regression {position}/{len(manifest.formulas)}: {name}")
         data = regression_data(manifest, name, series_values, frequencies)
         orders = {variable: records[variable].verdict.order for variable in formula.variables}
+        policy = manifest.spec.regressions[name].too_short or manifest.spec.settings.too_short
         if data.empty:
-            assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders,
-                                            "the variables share no periods within the sample window")
+            reason = "the variables share no periods within the sample window"
+            if policy == "error":
+                raise SampleTooShortError(location=manifest.locate("regressions", name), problem=reason,
+                                          hint="widen the sample window, or set 'too_short: report' to keep the "
+                                               "regression in the dossier as inconclusive")
+            assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders, reason)
             continue
         try:
             with warnings.catch_warnings(record=True):
@@ -177,11 +250,15 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
                 assessments[name] = assess_regression(name, formula.text, formula.dependent, formula.regressors,
                                                       data, orders, settings, fragile_orders=fragile)
         except InsufficientDataError as error:
+            if policy == "error":
+                raise SampleTooShortError(location=manifest.locate("regressions", name), problem=error.message,
+                                          hint="use a longer sample or fewer regressors, or set 'too_short: report' "
+                                               "to keep the regression in the dossier as inconclusive") from None
             assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders,
                                             error.message)
         except DataError as error:
-            raise DataError(error.message, location=manifest.locate("regressions", name, "formula"),
-                            hint=error.hint) from None
+            raise type(error)(error.message, location=manifest.locate("regressions", name, "formula"),
+                              hint=error.hint) from None
 
     inputs = [InputRecord(role="manifest", name="manifest", path=str(manifest.path),
                           relative_path=manifest.path.name, sha256=sha256_bytes(manifest.raw),
@@ -190,11 +267,12 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
     for name, table in tables.items():
         inputs.append(InputRecord(role="data", name=name, path=str(table.path), relative_path=table.display_path,
                                   sha256=sha256_bytes(table.raw), bytes=len(table.raw)))
+        outside = outside_project(manifest, table.display_path)
         datasets[name] = DatasetRecord(
             name=name, path=table.display_path, index_column=table.index_column, frequency=table.frequency,
             frequency_source=table.frequency_source, rows=len(table.periods), start=period_label(table.periods[0]),
             end=period_label(table.periods[-1]), columns=tuple(table.cells), table_sha256=canonical_table_hash(table),
-            notes=table.notes)
+            notes=table.notes + ((outside,) if outside else ()))
     env = environment(command, manifest.base_dir)
     settings_record = manifest.spec.settings.model_dump()
     identifier = run_id(__version__, [record.sha256 for record in inputs], settings_record, env["packages"],
@@ -224,23 +302,17 @@ def _check_out_dir(out_dir: Path, manifest_path: Path | None = None, *, force: b
     with ``force``; foreign files are never replaced.
     """
     if out_dir.exists() and not out_dir.is_dir():
-        raise OutputError(f"the output path {out_dir} is a file", location=Location(out_dir),
-                          hint="name a folder for the dossier")
+        raise OutputIsFileError(location=Location(out_dir), path=out_dir)
     if out_dir.is_dir() and any(out_dir.iterdir()) and not (out_dir / RESULTS_FILE).is_file():
-        raise OutputError(f"the output folder {out_dir} holds files that are not a reportgen dossier",
-                          location=Location(out_dir), hint="choose an empty or new folder")
+        raise OutputForeignError(location=Location(out_dir), path=out_dir)
     if manifest_path is None or force or not (out_dir / RESULTS_FILE).is_file():
         return
     wanted = Path(manifest_path).resolve()
     recorded = recorded_manifest(out_dir / RESULTS_FILE)
     if recorded is None:
-        raise OutputError(f"the output folder {out_dir} holds a results.json that reportgen cannot read",
-                          location=Location(out_dir / RESULTS_FILE),
-                          hint="choose another folder, or pass --force to replace it")
+        raise OutputUnreadableResultsError(location=Location(out_dir / RESULTS_FILE), path=out_dir)
     if recorded != wanted and recorded.resolve() != wanted:
-        raise OutputError(f"the output folder {out_dir} holds the dossier of {recorded}, not of {wanted}",
-                          location=Location(out_dir),
-                          hint="choose another folder, or pass --force to replace that dossier")
+        raise OutputOtherDossierError(location=Location(out_dir), path=out_dir, recorded=recorded, wanted=wanted)
 
 
 def _owner_pid(folder_name: str, prefix: str) -> int | None:
@@ -337,10 +409,16 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
     :func:`remove_stale_staging`); each one handled is reported through ``progress``.
     """
     _check_out_dir(out_dir, manifest.path, force=force)
-    out_dir.parent.mkdir(parents=True, exist_ok=True)
-    for message in remove_stale_staging(out_dir, time.time() if started is None else started):
-        progress(message)
-    staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-{os.getpid()}-", dir=out_dir.parent))
+    try:
+        out_dir.parent.mkdir(parents=True, exist_ok=True)
+        for message in remove_stale_staging(out_dir, time.time() if started is None else started):
+            progress(message)
+        staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-{os.getpid()}-", dir=out_dir.parent))
+    except OSError as error:
+        if error.errno not in _UNWRITABLE:
+            raise
+        raise OutputUnwritableError(location=Location(out_dir), path=out_dir,
+                                    reason=error.strerror or str(error)) from None
     try:
         staging.chmod(_folder_mode())
         written = [RESULTS_FILE]
@@ -361,7 +439,7 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
 
                 progress("writing PDF")
                 render_pdf(html, staging / "dossier.pdf", base_dir=manifest.base_dir, created=document["created"],
-                           attachments=(manifest.path, staging / RESULTS_FILE))
+                           attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=template_dirs)
                 written.append("dossier.pdf")
         if bundle:
             from reportgen.bundle import write_bundle
@@ -374,10 +452,21 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
         _sync_folder(staging)
         _swap_into_place(staging, out_dir)
         _sync_directory(out_dir.parent)
+    except OSError as error:
+        shutil.rmtree(staging, ignore_errors=True)
+        if error.errno not in _UNWRITABLE:
+            raise
+        raise OutputUnwritableError(location=Location(out_dir), path=out_dir,
+                                    reason=error.strerror or str(error)) from None
     except BaseException:
         shutil.rmtree(staging, ignore_errors=True)
         raise
     return RunOutcome(out_dir=out_dir, files=tuple(out_dir / name for name in written), document=document)
+
+
+#: The operating-system errors that mean "this place cannot be written", not "reportgen has a bug".
+_UNWRITABLE = frozenset({errno.EACCES, errno.EPERM, errno.ENOSPC, errno.EROFS, errno.EDQUOT, errno.ENAMETOOLONG,
+                         errno.ENOTDIR})
 
 
 def _folder_mode() -> int:
@@ -454,6 +543,10 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
     for message in remove_stale_staging(out, started):
         progress(message)
     _check_out_dir(out, manifest.path, force=force)
+    if bundle:
+        from reportgen.bundle import check_bundle_inputs
+
+        check_bundle_inputs(manifest)
     results = analyse(manifest, command if command is not None else sys.argv, progress)
     document = results_to_dict(results)
     document["run_id"] = document_run_id(document)

@@ -24,7 +24,27 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from reportgen.errors import DataError, Location
+from reportgen.errors import (
+    ColumnEmptyError,
+    ColumnMissingError,
+    DataEmptyError,
+    DataEncodingError,
+    DataIsFolderError,
+    DataNotFoundError,
+    DataUnreadableError,
+    DatesDuplicateError,
+    DatesIrregularError,
+    DatesUnparsableError,
+    DatesUnsortedError,
+    DuplicateColumnError,
+    FrequencyMismatchError,
+    FrequencyUnknownError,
+    IndexColumnMissingError,
+    Location,
+    MissingValuesError,
+    NonNumericCellsError,
+    RaggedRowsError,
+)
 from reportgen.periods import period_label
 
 _PANDAS_FREQ = {"annual": "Y", "quarterly": "Q", "monthly": "M", "weekly": "W-SUN", "daily": "D"}
@@ -40,6 +60,27 @@ LISTED = 8
 
 
 @dataclass(frozen=True, slots=True)
+class Column:
+    """A column as numbers over the span analysed, and what its missing-data policy did to it."""
+
+    values: pd.Series
+    policy: str
+    dropped: tuple[str, ...] = ()  # periods before the first or after the last value, left out
+    interpolated: tuple[str, ...] = ()  # interior periods filled by linear interpolation
+
+    def describe(self) -> tuple[str, ...]:
+        """The policy's effect in sentences, for the dossier's notes."""
+        notes: list[str] = []
+        if self.dropped:
+            notes.append(f"missing data ({self.policy}): {len(self.dropped)} empty period(s) at the start or end "
+                         f"left out: {_listing(list(self.dropped))}")
+        if self.interpolated:
+            notes.append(f"missing data ({self.policy}): {len(self.interpolated)} interior period(s) filled by "
+                         f"linear interpolation: {_listing(list(self.interpolated))}")
+        return tuple(notes)
+
+
+@dataclass(frozen=True, slots=True)
 class Table:
     """A dataset as read: its raw text cells on a period index, plus what the file was."""
 
@@ -51,15 +92,28 @@ class Table:
     frequency: str
     frequency_source: str
     periods: pd.PeriodIndex
-    lines: tuple[int, ...]  # the file line of each row, in period order
+    lines: tuple[int, ...]  # the file line of each row, in period order; 0 for a period with no row
     cells: Mapping[str, tuple[str, ...]]  # column -> text cells in period order
     notes: tuple[str, ...]
+    missing: str = "error"  # the dataset's missing-data policy
+    inserted: tuple[str, ...] = ()  # calendar periods without a row, added as empty (policy interpolate)
 
-    def column(self, name: str, where: Location) -> pd.Series:
-        """A column as numbers over its span; errors name the line, the column and the value."""
+    def _row(self, position: int) -> str:
+        label = period_label(self.periods[position])
+        line = self.lines[position]
+        return f"line {line} ({label})" if line else f"{label} (no row in the file)"
+
+    def column(self, name: str, where: Location, policy: str | None = None) -> Column:
+        """A column as numbers under a missing-data policy; errors name the line, the column and the value.
+
+        ``policy`` (the series' own, else the dataset's) is ``error`` (no empty cell at all),
+        ``drop-leading-trailing`` (the span between the first and the last value, no gap inside)
+        or ``interpolate`` (that span, with interior gaps filled linearly).
+        """
+        policy = policy or self.missing
         if name not in self.cells:
-            raise DataError(f"dataset '{self.name}' ({self.display_path}) has no column '{name}'", location=where,
-                            hint=f"columns: {', '.join(self.cells)}")
+            raise ColumnMissingError(location=where, dataset=self.name, file=self.display_path, column=name,
+                                     columns=", ".join(self.cells))
         texts = self.cells[name]
         values = np.full(len(texts), np.nan)
         bad: list[str] = []
@@ -78,20 +132,37 @@ class Table:
                 continue
             values[position] = number
         if bad:
-            raise DataError(f"column '{name}' of {self.display_path} has non-numeric cells: {_listing(bad)}",
-                            location=where, hint="fix or remove those cells; leave a cell empty for a missing value")
+            raise NonNumericCellsError(location=where, column=name, file=self.display_path, listing=_listing(bad))
         present = np.flatnonzero(~np.isnan(values))
         if present.size == 0:
-            raise DataError(f"column '{name}' of {self.display_path} holds no numbers", location=where,
-                            hint="check the column name and the file")
+            raise ColumnEmptyError(location=where, column=name, file=self.display_path)
         first, last = int(present[0]), int(present[-1])
-        inner = np.flatnonzero(np.isnan(values[first:last + 1])) + first
-        if inner.size:
-            missing = [f"line {self.lines[i]} ({period_label(self.periods[i])})" for i in inner]
-            raise DataError(f"column '{name}' of {self.display_path} has empty cells inside its span: "
-                            f"{_listing(missing)}", location=where,
-                            hint="fill the gaps in the data; reportgen never closes interior gaps silently")
-        return pd.Series(values[first:last + 1], index=self.periods[first:last + 1], name=name)
+        outer = [*range(first), *range(last + 1, len(values))]
+        inner = [int(i) for i in np.flatnonzero(np.isnan(values[first:last + 1])) + first]
+        if policy == "error" and (outer or inner):
+            empty = sorted(outer + inner)
+            where_text = "inside its span" if not outer else "at its start or end" if not inner else \
+                "at its start or end and inside its span"
+            raise MissingValuesError(
+                location=where, column=name, file=self.display_path, where=where_text,
+                listing=_listing([self._row(i) for i in empty]),
+                remedy=("fill them in the data, or declare 'missing: drop-leading-trailing' (analyse the span with "
+                        "values) or 'missing: interpolate' (also fill interior gaps linearly) on the series or its "
+                        "dataset; either is recorded in the dossier"))
+        if policy == "drop-leading-trailing" and inner:
+            raise MissingValuesError(
+                location=where, column=name, file=self.display_path, where="inside its span",
+                listing=_listing([self._row(i) for i in inner]),
+                remedy=("fill the gaps in the data, or declare 'missing: interpolate' to fill them linearly "
+                        "(recorded in the dossier); reportgen never closes interior gaps silently"))
+        span = values[first:last + 1].copy()
+        if inner:
+            known = np.flatnonzero(~np.isnan(span))
+            gaps = np.flatnonzero(np.isnan(span))
+            span[gaps] = np.interp(gaps, known, span[known])
+        return Column(values=pd.Series(span, index=self.periods[first:last + 1], name=name), policy=policy,
+                      dropped=tuple(period_label(self.periods[i]) for i in outer),
+                      interpolated=tuple(period_label(self.periods[i]) for i in inner))
 
 
 def _listing(items: list[str]) -> str:
@@ -134,6 +205,9 @@ def _to_period(kind: str, parts: tuple[int, ...], frequency: str, how: str = "st
     return period if period.freqstr == pd.Period("2000", freq=target).freqstr else period.asfreq(target, how=how)
 
 
+#: How an error message names each form of date label.
+_FORM_NAMES = {"annual": "annual (2011)", "quarterly": "quarterly (2011Q1)", "monthly": "monthly (2011-03)",
+               "date": "dated (2011-03-14)"}
 _RANK = {"annual": 0, "quarterly": 1, "monthly": 2, "weekly": 3, "daily": 4}
 
 
@@ -163,97 +237,137 @@ def _infer_frequency(kinds: set[str], dates: list[pd.Timestamp]) -> str | None:
 
 
 def read_table(name: str, path: Path, display_path: str, index_column: str, declared: str | None,
-               where: Location, index_where: Location) -> Table:
-    """Read a CSV dataset; every problem raises a :class:`DataError` naming file, line and value."""
+               where: Location, index_where: Location, *, missing: str = "error", sort: bool = False,
+               shown_path: str | None = None) -> Table:
+    """Read a CSV dataset; every problem raises a catalogue error naming file, line and value.
+
+    ``missing`` is the dataset's missing-data policy: with ``interpolate`` a period of the
+    calendar that has no row becomes a row of empty cells (to be filled), otherwise it is an
+    error. ``sort`` lets rows out of date order be sorted (recorded in the notes) rather than refused.
+    ``shown_path`` is the file as errors locate it (from the current folder); messages and the
+    dossier use ``display_path``, the path as the manifest gives it.
+    """
+    here = shown_path or display_path
     try:
         raw = path.read_bytes()
     except FileNotFoundError:
-        raise DataError(f"data file not found: {display_path}", location=where,
-                        hint="paths are relative to the manifest's folder") from None
+        raise DataNotFoundError(location=where, file=display_path) from None
     except IsADirectoryError:
-        raise DataError(f"{display_path} is a folder, not a data file", location=where) from None
+        raise DataIsFolderError(location=where, file=display_path) from None
     except OSError as error:
-        raise DataError(f"cannot read {display_path}: {error.strerror}", location=where) from None
+        raise DataUnreadableError(location=where, file=display_path, reason=error.strerror or str(error)) from None
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as error:
-        raise DataError(f"{display_path} is not UTF-8 text (byte {error.start})", location=where,
-                        hint="save the file as UTF-8 (CSV UTF-8 in a spreadsheet program)") from None
-    rows = list(csv.reader(io.StringIO(text, newline="")))
+        before = raw[:error.start]
+        line, column = before.count(b"\n") + 1, error.start - (before.rfind(b"\n") + 1) + 1
+        raise DataEncodingError(location=Location(here, line, column), file=display_path, offset=error.start) from None
+    if "\x00" in text:
+        raise DataEncodingError(f"{display_path} holds NUL bytes (the first at character {text.index(chr(0))}); "
+                                "it is not a text file", location=where)
+    rows: list[list[str]] = []
+    numbers: list[int] = []  # the file line each row starts on (a quoted cell may span lines)
+    reader = csv.reader(io.StringIO(text, newline=""))
+    try:
+        previous = 0
+        for row in reader:
+            if row:  # a blank line is not a row
+                rows.append(row)
+                numbers.append(previous + 1)
+            previous = reader.line_num
+    except csv.Error as error:
+        raise RaggedRowsError(location=Location(here, reader.line_num), file=display_path,
+                              listing=f"line {reader.line_num} cannot be read as CSV ({error})") from None
     while rows and not any(cell.strip() for cell in rows[-1]):
         rows.pop()
+        numbers.pop()
     if not rows:
-        raise DataError(f"{display_path} is empty", location=where)
+        raise DataEmptyError(location=where, file=display_path, problem="is empty")
     header = [cell.strip() for cell in rows[0]]
     if index_column not in header:
-        raise DataError(f"{display_path} has no column '{index_column}' to use as the date index",
-                        location=index_where, hint=f"columns in the file: {', '.join(header)}")
+        raise IndexColumnMissingError(location=index_where, file=display_path, column=index_column,
+                                      columns=", ".join(header))
     duplicated = sorted({column for column in header if header.count(column) > 1})
     if duplicated:
-        raise DataError(f"{display_path} repeats column name(s) {', '.join(duplicated)} in its header",
-                        location=Location(display_path, 1), hint="give every column its own name")
+        raise DuplicateColumnError(location=Location(here, numbers[0]), file=display_path,
+                                   columns=", ".join(duplicated))
     body = rows[1:]
     if not body:
-        raise DataError(f"{display_path} has a header but no rows", location=where)
+        raise DataEmptyError(location=where, file=display_path, problem="has a header but no rows")
     position = header.index(index_column)
     parsed: list[tuple[str, tuple[int, ...]]] = []
-    unparsable: list[str] = []
-    ragged: list[str] = []
-    for line_number, row in enumerate(body, start=2):
+    unparsable: list[tuple[int, str]] = []
+    ragged: list[tuple[int, str]] = []
+    for line_number, row in zip(numbers[1:], body, strict=True):
         if len(row) != len(header):
-            ragged.append(f"line {line_number} has {len(row)} fields, the header {len(header)}")
+            ragged.append((line_number, f"line {line_number} has {len(row)} fields, the header {len(header)}"))
             continue
         kind = _date_kind(row[position])
         if kind is None:
-            unparsable.append(f"line {line_number}: {row[position]!r}")
+            unparsable.append((line_number, f"line {line_number}: {row[position]!r}"))
         else:
             parsed.append(kind)
     if ragged:
-        raise DataError(f"{display_path}: {_listing(ragged)}", location=Location(display_path),
-                        hint="every row needs one field per column")
+        raise RaggedRowsError(location=Location(here, ragged[0][0]), file=display_path,
+                              listing=_listing([text for _, text in ragged]))
     if unparsable:
-        raise DataError(f"column '{index_column}' of {display_path} has dates reportgen cannot read: "
-                        f"{_listing(unparsable)}", location=Location(display_path),
-                        hint="write dates as 2011, 2011Q1, 2011-03 or 2011-03-14")
+        raise DatesUnparsableError(location=Location(here, unparsable[0][0]), column=index_column,
+                                   file=display_path, listing=_listing([text for _, text in unparsable]))
     kinds = {kind for kind, _ in parsed}
     timestamps = [pd.Timestamp(year=p[0], month=p[1], day=p[2]) for kind, p in parsed if kind == "date"]
     frequency = declared or _infer_frequency(kinds, timestamps)
     if frequency is None:
-        raise DataError(f"cannot infer the frequency of {display_path} (date forms: {', '.join(sorted(kinds))})",
-                        location=where, hint="declare it: frequency: annual|quarterly|monthly|weekly|daily")
+        forms = ", ".join(_FORM_NAMES[kind] for kind in sorted(kinds))
+        raise FrequencyUnknownError(location=where, file=display_path, forms=forms)
     coarsest = {"annual": "annual", "quarterly": "quarterly", "monthly": "monthly", "date": "daily"}
-    too_coarse = [kind for kind in kinds if _RANK[coarsest[kind]] < _RANK[frequency]]
+    too_coarse = sorted(kind for kind in kinds if _RANK[coarsest[kind]] < _RANK[frequency])
     if too_coarse:
-        raise DataError(f"{display_path} is declared {frequency} but has {too_coarse[0]} date labels",
-                        location=where, hint="declare the frequency the dates carry")
+        raise FrequencyMismatchError(location=where, file=display_path, frequency=frequency,
+                                     form=_FORM_NAMES[too_coarse[0]])
     periods = [_to_period(kind, parts, frequency) for kind, parts in parsed]
-    lines = list(range(2, 2 + len(body)))
+    lines = numbers[1:]
     notes: list[str] = []
     seen: dict[pd.Period, int] = {}
-    duplicates: list[str] = []
+    duplicates: list[tuple[int, str]] = []
     for period, line in zip(periods, lines, strict=True):
         if period in seen:
-            duplicates.append(f"{period_label(period)} on lines {seen[period]} and {line}")
+            duplicates.append((line, f"{period_label(period)} on lines {seen[period]} and {line}"))
         else:
             seen[period] = line
     if duplicates:
-        raise DataError(f"{display_path} has more than one row for a period: {_listing(duplicates)}",
-                        location=Location(display_path),
-                        hint=f"keep one row per period (the dataset is {frequency})")
+        raise DatesDuplicateError(location=Location(here, duplicates[0][0]), file=display_path,
+                                  listing=_listing([text for _, text in duplicates]), frequency=frequency)
     order = sorted(range(len(periods)), key=lambda i: periods[i])
     if order != list(range(len(periods))):
-        notes.append(f"rows of {display_path} were not in date order; reportgen sorted them")
+        steps_back = [i + 1 for i in range(len(periods) - 1) if periods[i + 1] < periods[i]]
+        backwards = [f"line {lines[i]} ({period_label(periods[i])} after {period_label(periods[i - 1])})"
+                     for i in steps_back]
+        if not sort:
+            raise DatesUnsortedError(location=Location(here, lines[steps_back[0]]), file=display_path,
+                                     listing=_listing(backwards))
+        notes.append(f"rows of {display_path} were not in date order ({len(backwards)} step(s) back in time, the "
+                     f"first at {backwards[0]}); reportgen sorted them, as the dataset's 'sort: true' allows")
     index = pd.PeriodIndex([periods[i] for i in order], freq=_PANDAS_FREQ[frequency])
     full = pd.period_range(index[0], index[-1], freq=index.freq)
+    row_lines = [lines[i] for i in order]
+    cells = {column: [body[i][k] for i in order] for k, column in enumerate(header) if column != index_column}
+    inserted: list[str] = []
     if len(full) != len(index):
-        missing = [period_label(period) for period in full.difference(index)]
-        raise DataError(f"{display_path} skips {len(missing)} period(s) of its {frequency} calendar: "
-                        f"{_listing(missing)}", location=Location(display_path),
-                        hint="add rows for those periods (empty cells are allowed at a column's start or end)")
-    cells = {column: tuple(body[i][k] for i in order) for k, column in enumerate(header) if column != index_column}
+        absent = [period_label(period) for period in full.difference(index)]
+        if missing != "interpolate":
+            raise DatesIrregularError(location=Location(here), file=display_path, count=len(absent),
+                                      frequency=frequency, listing=_listing(absent))
+        present = {period: position for position, period in enumerate(index)}
+        row_lines = [row_lines[present[period]] if period in present else 0 for period in full]
+        cells = {column: [texts[present[period]] if period in present else "" for period in full]
+                 for column, texts in cells.items()}
+        index, inserted = full, absent
+        notes.append(f"{display_path} has no row for {len(absent)} period(s) of its {frequency} calendar "
+                     f"({_listing(absent)}); under 'missing: interpolate' they are treated as empty cells")
     return Table(name=name, path=path, display_path=display_path, raw=raw, index_column=index_column,
                  frequency=frequency, frequency_source="declared" if declared else "inferred", periods=index,
-                 lines=tuple(lines[i] for i in order), cells=cells, notes=tuple(notes))
+                 lines=tuple(row_lines), cells={column: tuple(texts) for column, texts in cells.items()},
+                 notes=tuple(notes), missing=missing, inserted=tuple(inserted))
 
 
 def canonical_table_hash(table: Table, columns: Iterable[str] | None = None) -> str:

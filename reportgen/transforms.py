@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from reportgen.errors import Location, TransformError
+from reportgen.errors import Location, NonPositiveValuesError, NoSeasonError, TransformExhaustsError
 from reportgen.periods import period_label
 from reportgen.vocabulary import PERIODS_PER_YEAR
 
@@ -31,10 +31,9 @@ def _positive(values: pd.Series, step: str, where: Location) -> None:
     bad = values[values <= 0]
     if len(bad):
         first = bad.index[0]
-        raise TransformError(
-            f"'{step}' needs positive values; the series is {bad.iloc[0]:g} at {period_label(first)}"
-            + (f" ({len(bad)} non-positive values in all)" if len(bad) > 1 else ""),
-            location=where, hint="drop the log/growth step, or use a series that stays above zero")
+        more = f" ({len(bad)} non-positive values in all)" if len(bad) > 1 else ""
+        raise NonPositiveValuesError(location=where, step=step, value=float(bad.iloc[0]), period=period_label(first),
+                                     more=more)
 
 
 def _log(values: pd.Series, parameter: int | None, frequency: str, where: Location) -> pd.Series:
@@ -61,8 +60,7 @@ def _growth(values: pd.Series, parameter: int | None, frequency: str, where: Loc
 def _seasonal_diff(values: pd.Series, parameter: int | None, frequency: str, where: Location) -> pd.Series:
     period = parameter or PERIODS_PER_YEAR[frequency]
     if period < 2 and parameter is None:
-        raise TransformError("'seasonal-diff' needs a season; an annual series has none", location=where,
-                             hint="use 'diff', or give the season length: {seasonal-diff: 2}")
+        raise NoSeasonError(location=where)
     return (values - values.shift(period)).iloc[period:]
 
 
@@ -100,6 +98,5 @@ def apply_transforms(values: pd.Series, steps: Sequence[Step], frequency: str, w
     for step in steps:
         result = _STEPS[step.name](result, step.parameter, frequency, where)
         if result.empty:
-            raise TransformError(f"after '{step.name}' no observations are left", location=where,
-                                 hint="the series is too short for this transform chain")
+            raise TransformExhaustsError(location=where, step=step.name)
     return result.rename(values.name)

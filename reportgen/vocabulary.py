@@ -20,6 +20,12 @@ Verdict = Literal["stationary", "cointegrated", "spurious-risk", "unbalanced", "
 Frequency = Literal["annual", "quarterly", "monthly", "weekly", "daily"]
 #: Names of transforms a series may declare, applied left to right.
 TransformName = Literal["log", "diff", "log-diff", "growth", "seasonal-diff", "lag"]
+#: What to do with empty cells in a column: refuse them (the default), analyse the span between the
+#: first and last value, or also fill interior gaps by linear interpolation.
+MissingPolicy = Literal["error", "drop-leading-trailing", "interpolate"]
+#: What to do with a series or regression too short to test: refuse it (the default), or keep it in
+#: the dossier with its order undetermined and its regressions inconclusive.
+TooShortPolicy = Literal["error", "report"]
 #: Significance levels reportgen accepts (the levels the critical-value tables carry).
 SIGNIFICANCE_LEVELS: Final[tuple[float, ...]] = (0.01, 0.05, 0.10)
 

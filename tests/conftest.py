@@ -44,6 +44,12 @@ def small_manifest() -> str:
 
 
 @pytest.fixture
+def simulated_data() -> Callable[..., str]:
+    """The simulated CSV writer (two walks and a noise), for tests that build their own projects."""
+    return simulated_csv
+
+
+@pytest.fixture
 def small_project(tmp_path: Path) -> Callable[..., Path]:
     """Write a small manifest and its simulated data; return the manifest path."""
 

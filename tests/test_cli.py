@@ -36,7 +36,7 @@ def test_bad_manifest_exits_2_without_traceback_or_output(small_project: Callabl
     out = tmp_path / "out"
     status, stdout, stderr = _run(["run", str(manifest), "--out", str(out)], capsys)
     assert status == 2
-    assert stderr == (f"{manifest}:8:5: error: datasets.sim.frequncy: unknown key 'frequncy'\n"
+    assert stderr == (f"{manifest}:8:5: error[unknown-key]: datasets.sim.frequncy: unknown key 'frequncy'\n"
                       "  hint: did you mean 'frequency'?\n")
     assert "Traceback" not in stderr + stdout
     assert not out.exists()
@@ -65,7 +65,8 @@ def test_output_path_that_is_a_file(small_project: Callable[..., Path], tmp_path
     target.write_text("keep me")
     status, _, stderr = _run(["run", str(small_project()), "--out", str(target)], capsys)
     assert status == 2
-    assert stderr == f"{target}: error: the output path {target} is a file\n  hint: name a folder for the dossier\n"
+    assert stderr == (f"{target}: error[output-is-file]: the output path {target} is a file\n"
+                      "  hint: name a folder for the dossier\n")
     assert target.read_text() == "keep me"
 
 

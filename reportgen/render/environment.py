@@ -8,6 +8,11 @@ Templates are searched in the user's folders first (a manifest's ``templates:`` 
 ``--templates DIR``), then in the packaged ``templates/`` folder. A user template can reach the
 packaged version of a file it replaces through the ``default/`` prefix, e.g.
 ``{% extends "default/partials/summary.html.j2" %}``.
+
+User templates may come with a client's manifest, so they are not trusted: they run in jinja2's
+immutable sandbox (no attribute starting with ``_``, no ``str.format`` tricks, no changing the
+document they display), and :class:`TemplateFolders` loads only plain relative names that stay
+inside their folder (no absolute names, no ``..``, no link that leads out of the folder).
 """
 
 from __future__ import annotations
@@ -21,9 +26,10 @@ from pathlib import Path
 from typing import Any
 
 import jinja2
-from jinja2.sandbox import SandboxedEnvironment
+from jinja2.exceptions import SecurityError
+from jinja2.sandbox import ImmutableSandboxedEnvironment
 
-from reportgen.errors import ReportgenError
+from reportgen.errors import TemplateFolderMissingError, TemplatesMissingError
 
 #: Text shown for a missing value (``None`` in results.json).
 MISSING = "—"
@@ -31,11 +37,8 @@ MISSING = "—"
 #: Name of the template that the HTML renderer starts from.
 ENTRY_TEMPLATE = "dossier.html.j2"
 
-
-class TemplateError(ReportgenError):
-    """A template folder or a user template cannot be used (missing, bad syntax, unsafe URL)."""
-
-    category = "Template error"
+#: Prefix under which a user template reaches the packaged version of a template it replaces.
+DEFAULT_PREFIX = "default/"
 
 
 def packaged_templates_dir() -> Path:
@@ -55,11 +58,7 @@ def packaged_templates_dir() -> Path:
     for candidate in candidates:
         if (candidate / "base.html.j2").is_file():
             return candidate.resolve()
-    raise TemplateError(
-        "cannot find reportgen's packaged templates; looked in "
-        + ", ".join(str(candidate) for candidate in candidates),
-        hint="reinstall reportgen, or pass --templates DIR with a complete template folder",
-    )
+    raise TemplatesMissingError(places=", ".join(str(candidate) for candidate in candidates))
 
 
 # --------------------------------------------------------------------------------------------
@@ -318,6 +317,60 @@ def _is_list(value: Any) -> bool:
 TESTS: Mapping[str, Callable[[Any], bool]] = {"dict_like": _is_mapping, "list_like": _is_list}
 
 
+class TemplateLoadRefusedError(SecurityError):
+    """A template name or file that :class:`TemplateFolders` will not load (raised by the loader itself)."""
+
+
+class TemplateFolders(jinja2.BaseLoader):
+    """Loads templates by relative name from folders searched in order, and ``default/NAME`` from the last.
+
+    A name must be a plain relative path (``partials/summary.html.j2``): an absolute name, a
+    ``..`` part, a backslash or a NUL character raises :class:`TemplateLoadRefusedError`, and
+    so does a file that is a link leading outside the folder it was found in. A plain name that
+    no folder holds raises :class:`jinja2.TemplateNotFound`.
+    """
+
+    def __init__(self, folders: Sequence[Path]) -> None:
+        self.folders = tuple(Path(folder).resolve() for folder in folders)
+
+    @staticmethod
+    def name_parts(name: str, shown: str | None = None) -> tuple[str, ...]:
+        """The parts of a template name, or :class:`TemplateLoadRefusedError` for a name that is not plain.
+
+        ``shown`` is the name as the template wrote it (with its ``default/`` prefix), for the message.
+        """
+        parts = tuple(part for part in name.split("/") if part not in ("", "."))
+        if not parts:
+            raise jinja2.TemplateNotFound(shown or name)
+        if name.startswith("/") or "\\" in name or "\0" in name or ".." in parts or Path(name).is_absolute():
+            raise TemplateLoadRefusedError(f"{shown or name!r} is not a template name reportgen loads: templates "
+                                           "are named by a relative path inside a template folder, without '..'")
+        return parts
+
+    def get_source(self, environment: jinja2.Environment, template: str) -> tuple[str, str, Callable[[], bool]]:
+        folders = self.folders
+        name = template
+        if template.startswith(DEFAULT_PREFIX):
+            folders, name = self.folders[-1:], template[len(DEFAULT_PREFIX):]
+        parts = self.name_parts(name, template)
+        for folder in folders:
+            candidate = folder.joinpath(*parts)
+            if not candidate.is_file():
+                continue
+            real = candidate.resolve()
+            if not real.is_relative_to(folder):
+                raise TemplateLoadRefusedError(f"template {template!r} is a link to {real}, outside its template "
+                                               f"folder {folder}")
+            raw = real.read_bytes()
+            try:
+                source = raw.decode("utf-8")
+            except UnicodeDecodeError as error:
+                raise jinja2.TemplateSyntaxError(f"the file is not UTF-8 text (byte {error.start})", lineno=1,
+                                                 name=template, filename=str(candidate)) from None
+            return source, str(candidate), lambda: True
+        raise jinja2.TemplateNotFound(template)
+
+
 def _finalize(value: Any) -> Any:
     """Show ``None`` as the missing-value mark rather than the word ``None``."""
     return MISSING if value is None else value
@@ -326,32 +379,26 @@ def _finalize(value: Any) -> Any:
 def build_environment(template_dirs: Sequence[Path] = ()) -> jinja2.Environment:
     """The jinja2 environment for the dossier: user folders first, then packaged templates.
 
-    Sandboxed (user templates may come with a client's manifest), autoescaping on for every
-    template whatever its name, ``StrictUndefined``, and the filters of :data:`FILTERS`.
+    Sandboxed (user templates may come with a client's manifest: jinja2's immutable sandbox and
+    :class:`TemplateFolders`), autoescaping on for every template whatever its name,
+    ``StrictUndefined``, and the filters of :data:`FILTERS`.
 
     Raises
     ------
-    TemplateError
+    TemplateFolderMissingError
         When a user template folder does not exist.
+    TemplatesMissingError
+        When reportgen's own templates cannot be found.
     """
     user_dirs: list[Path] = []
     for folder in template_dirs:
         path = Path(folder)
         if not path.is_dir():
-            raise TemplateError(
-                f"template folder {path} does not exist or is not a folder",
-                hint="check the templates setting of the manifest or the --templates option",
-            )
+            raise TemplateFolderMissingError(path=path)
         user_dirs.append(path.resolve())
     packaged = packaged_templates_dir()
-    loader = jinja2.ChoiceLoader(
-        [
-            jinja2.FileSystemLoader([*user_dirs, packaged], encoding="utf-8"),
-            jinja2.PrefixLoader({"default": jinja2.FileSystemLoader(packaged, encoding="utf-8")}),
-        ]
-    )
-    environment = SandboxedEnvironment(
-        loader=loader,
+    environment = ImmutableSandboxedEnvironment(
+        loader=TemplateFolders([*user_dirs, packaged]),
         autoescape=True,
         undefined=jinja2.StrictUndefined,
         trim_blocks=True,

@@ -15,12 +15,20 @@ import traceback
 from collections.abc import Iterable, Mapping, Sequence
 from pathlib import Path
 from typing import Any
+from xml.etree import ElementTree
 
 import jinja2
 from markupsafe import Markup
 
-from reportgen.errors import Location
-from reportgen.render.environment import ENTRY_TEMPLATE, TemplateError, build_environment, unique_ids
+from reportgen.errors import (
+    Location,
+    StylesheetUnsafeError,
+    TemplateNameRefusedError,
+    TemplateNotFoundError,
+    TemplateSyntaxError,
+    TemplateUnsafeError,
+)
+from reportgen.render.environment import ENTRY_TEMPLATE, TemplateLoadRefusedError, build_environment, unique_ids
 
 #: Fixed anchors of the dossier's parts; series and regressions get ``series-…``/``regression-…``.
 SECTION_IDS: Mapping[str, str] = {
@@ -82,25 +90,65 @@ _FAN_FIELDS: Mapping[str, Any] = {
     "share_outside": None, "description": "",
 }
 
-_UNSAFE_SVG = re.compile(r"<\s*(script|foreignobject|iframe|object|embed)\b|\son[a-z]+\s*=|javascript:", re.IGNORECASE)
+#: Elements a chart may hold: what matplotlib's SVG backend writes for our charts and a few other shapes.
+_SVG_ELEMENTS = frozenset({
+    "svg", "g", "defs", "path", "use", "text", "tspan", "clipPath", "rect", "circle", "ellipse", "line",
+    "polyline", "polygon", "pattern", "image", "title", "desc", "linearGradient", "radialGradient", "stop",
+    "mask", "marker", "symbol",
+})
+_LOCAL_REFERENCE = re.compile(r"#[A-Za-z0-9_.:-]+")
+_INLINE_IMAGE = re.compile(r"data:image/(png|jpeg);base64,[A-Za-z0-9+/=\s]*")
+_URL_FUNCTION = re.compile(r"url\(\s*([^)]*?)\s*\)", re.IGNORECASE)
+
+
+def _svg_problem(svg: str) -> str | None:
+    """What makes ``svg`` unfit to inline in the page, or ``None`` for a plain drawing.
+
+    The check is on the parsed tree, not on the text, so a label that *reads* ``<script>`` or
+    ``onerror=`` (escaped by matplotlib, hence plain text) passes, while a ``script`` element, an
+    event-handler attribute, a link to anything but an element of the chart itself or an
+    inline PNG/JPEG, a comment, CDATA or processing instruction does not.
+    """
+    if not svg.startswith("<svg"):
+        return "it does not start with <svg"
+    if "<!" in svg or "<?" in svg:
+        return "it holds a comment, CDATA section, declaration or processing instruction"
+    try:
+        root = ElementTree.fromstring(svg)
+    except ElementTree.ParseError as error:
+        return f"it is not well-formed XML ({error})"
+    for element in root.iter():
+        name = element.tag.rpartition("}")[2] if isinstance(element.tag, str) else "?"
+        if name not in _SVG_ELEMENTS:
+            return f"it holds a <{name}> element"
+        for attribute, value in element.attrib.items():
+            local = attribute.rpartition("}")[2].lower()
+            if local.startswith("on"):
+                return f"<{name}> has an event-handler attribute {local!r}"
+            if local == "href" and not (_LOCAL_REFERENCE.fullmatch(value) or _INLINE_IMAGE.fullmatch(value)):
+                return f"<{name}> links to {value[:40]!r}"
+            for target in _URL_FUNCTION.findall(value):
+                if not _LOCAL_REFERENCE.fullmatch(target.strip("'\"")):
+                    return f"<{name}> refers to {target[:40]!r}"
+    return None
 
 
 def _chart_markup(key: str, svg: str) -> Markup:
     """An SVG from :func:`reportgen.render.plots.render_plots`, checked and marked safe to inline."""
     text = svg.strip()
-    if not text.startswith("<svg") or _UNSAFE_SVG.search(text):
-        raise ValueError(f"chart {key!r} is not a plain inline SVG; pass the output of render_plots")
-    return Markup(text)  # checked above; drawn by our own plotting code
+    problem = _svg_problem(text)
+    if problem is not None:
+        raise ValueError(f"chart {key!r} is not a plain inline SVG ({problem}); pass the output of render_plots")
+    return Markup(text)  # checked above; drawn by our own plotting code, every label escaped by matplotlib
 
 
 def _stylesheet(environment: jinja2.Environment) -> Markup:
     """``style.css`` from the template folders (a user folder may replace it), for a <style> element."""
     loader = environment.loader
     assert loader is not None
-    source, _, _ = loader.get_source(environment, "style.css")
+    source, filename, _ = loader.get_source(environment, "style.css")
     if re.search(r"</\s*style", source, re.IGNORECASE):
-        raise TemplateError("style.css must not contain a closing </style> tag",
-                            location=Location(path="style.css"))
+        raise StylesheetUnsafeError(location=Location(path=filename or "style.css"))
     return Markup(source)  # a stylesheet from the template folder, not document text
 
 
@@ -436,23 +484,33 @@ def render_html(document: Mapping[str, Any], plots: Mapping[str, str], template_
 
     Raises
     ------
-    TemplateError
-        A user template is missing, does not parse, or uses a name the context does not have.
+    TemplateSyntaxError
+        A user template does not parse.
+    TemplateNotFoundError
+        A user template includes or extends a template that no folder holds.
+    TemplateUnsafeError
+        A user template uses a name the context does not have, something the sandbox forbids, or a
+        template name that is absolute, climbs with ``..`` or is a link out of its folder.
+    StylesheetUnsafeError
+        A user ``style.css`` would close its ``<style>`` element.
     """
     environment = build_environment(template_dirs)
     try:
         template = environment.get_template(ENTRY_TEMPLATE)
         return template.render(dossier_context(document, plots, environment))
     except jinja2.TemplateSyntaxError as error:
-        raise TemplateError(f"template syntax error: {error.message}",
-                            location=Location(path=error.filename or error.name, line=error.lineno),
-                            hint="fix the template, or remove it to use the packaged one") from error
+        raise TemplateSyntaxError(problem=error.message,
+                                  location=Location(path=error.filename or error.name, line=error.lineno)) from error
     except jinja2.TemplateNotFound as error:
-        raise TemplateError(f"template {error.name!r} not found in the template folders",
-                            hint="a user template folder may only replace templates that exist") from error
+        raise TemplateNotFoundError(name=error.name, location=_user_template_frame(error, template_dirs)) from error
+    except TemplateLoadRefusedError as error:
+        # The loader refused a name or a file of a user folder, whichever template asked for it.
+        raise TemplateNameRefusedError(problem=str(error), location=_user_template_frame(error, template_dirs),
+                                       hint="include or extend templates by their name inside a template folder, "
+                                            "e.g. 'partials/summary.html.j2'; links out of the folder are not "
+                                            "followed") from error
     except (jinja2.UndefinedError, jinja2.exceptions.SecurityError) as error:
         location = _user_template_frame(error, template_dirs)
         if location is None:
             raise  # raised by a packaged template: a bug, keep the traceback
-        raise TemplateError(f"template error: {error}", location=location,
-                            hint="the names a template can use are listed in reportgen/render/html.py") from error
+        raise TemplateUnsafeError(problem=str(error), location=location) from error

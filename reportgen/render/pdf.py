@@ -18,51 +18,80 @@ from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+from urllib.error import URLError
 from urllib.parse import urlsplit
-from urllib.request import url2pathname
+from urllib.request import DataHandler, Request, url2pathname
 
 from weasyprint.urls import URLFetcher, URLFetcherResponse  # type: ignore[import-untyped]
 
-from reportgen.render.environment import TemplateError, packaged_templates_dir
-
-
-class ResourceRefusedError(TemplateError):
-    """The HTML asked for a resource outside the allowed local folders (or on the network)."""
+from reportgen.errors import ReportgenError, ResourceRefusedError, ResourceUnreadableError
+from reportgen.render.environment import packaged_templates_dir
 
 
 class LocalFileFetcher(URLFetcher):  # type: ignore[misc]
     """A WeasyPrint URL fetcher that serves local files under ``roots`` and ``data:`` URLs only.
 
-    Every refusal raises :class:`ResourceRefusedError`; WeasyPrint is told to stop on fetch
-    errors, so a refused resource never turns into a silently missing image.
+    Every refusal raises :class:`ResourceRefusedError` before any input or output: a URL of any
+    other scheme (``http:``, ``https:``, ``ftp:``, ...), a ``file:`` URL naming a host (which is
+    what a protocol-relative ``//host/x.png`` becomes against the manifest's folder), and a file
+    whose real path (links followed) is outside every root. ``data:`` URLs are decoded here,
+    without urllib's opener. WeasyPrint is told to stop on fetch errors, and every refusal is also
+    kept in :attr:`refused` (WeasyPrint swallows errors inside SVG images), so that
+    :func:`build_pdf` stops on it: a refused resource never turns into a silently missing image.
     """
 
     def __init__(self, roots: Sequence[Path]) -> None:
         super().__init__(timeout=5, allowed_protocols=("file", "data"), allow_redirects=False,
                          fail_on_errors=True)
         self.roots = tuple(Path(root).resolve() for root in roots)
+        #: Every refusal so far, in order.
+        self.refused: list[ResourceRefusedError] = []
 
     def fetch(self, url: str, headers: Any = None) -> URLFetcherResponse:
         """Serve ``url`` if it is a ``data:`` URL or a file inside one of the roots."""
-        scheme = url.split(":", 1)[0].lower() if ":" in url else ""
+        try:
+            return self._fetch(url)
+        except ResourceRefusedError as error:
+            self.refused.append(error)
+            raise
+
+    def _fetch(self, url: str) -> URLFetcherResponse:
+        scheme = url.split(":", 1)[0].strip().lower() if ":" in url else ""
         if scheme == "data":
-            return super().fetch(url, headers)
+            return _data_response(url)
         if scheme != "file":
             raise ResourceRefusedError(
-                f"the dossier may not load {url!r}: only local files and data: URLs are allowed",
+                problem=f"the dossier may not load {url!r}: only local files and data: URLs are allowed",
                 hint="copy the resource into the manifest's folder and refer to it by a relative path",
             )
-        path = Path(url2pathname(urlsplit(url).path)).resolve()
+        parts = urlsplit(url)
+        if parts.netloc not in ("", "localhost"):
+            raise ResourceRefusedError(
+                problem=f"the dossier may not load {url!r}: it names the host {parts.netloc!r}; only local files "
+                        "and data: URLs are allowed",
+                hint="copy the resource into the manifest's folder and refer to it by a relative path",
+            )
+        path = Path(url2pathname(parts.path)).resolve()
         if not any(path.is_relative_to(root) for root in self.roots):
             raise ResourceRefusedError(
-                f"the dossier may not load {path}: it is outside "
-                + " and ".join(str(root) for root in self.roots),
-                hint="keep images and stylesheets next to the manifest or in the template folder",
-            )
+                problem=f"the dossier may not load {path}: it is outside "
+                + " and ".join(str(root) for root in self.roots))
         if not path.is_file():
-            raise ResourceRefusedError(f"the dossier refers to {path}, which does not exist")
+            raise ResourceUnreadableError(problem=f"the dossier refers to {path}, which does not exist")
         content_type = mimetypes.guess_type(path.name)[0] or "application/octet-stream"
         return URLFetcherResponse(path.as_uri(), body=path.read_bytes(), headers={"Content-Type": content_type})
+
+
+def _data_response(url: str) -> URLFetcherResponse:
+    """A ``data:`` URL decoded in memory (RFC 2397), as WeasyPrint expects a response."""
+    try:
+        with DataHandler().data_open(Request(url)) as response:
+            body = response.read()
+            content_type = response.headers.get("Content-Type", "text/plain;charset=US-ASCII")
+    except (ValueError, URLError) as error:
+        raise ResourceUnreadableError(problem=f"the dossier has a data: URL that cannot be decoded ({error})",
+                                      hint="check the data: URL's base64 text") from None
+    return URLFetcherResponse(url, body=body, headers={"Content-Type": content_type})
 
 
 def pdf_timestamp(created: str) -> datetime.datetime:
@@ -144,15 +173,22 @@ def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[
             document.metadata.modified = stamp
             data = document.write_pdf(attachments=files, pdf_identifier=True)
     except FatalURLFetchingError as error:
+        if fetcher.refused:
+            raise fetcher.refused[0] from None
         cause = error.__cause__
-        if isinstance(cause, TemplateError):
+        if isinstance(cause, ReportgenError):
             raise cause from None
-        raise TemplateError(f"a resource of the dossier could not be loaded: {cause or error}") from error
+        raise ResourceRefusedError(problem=f"a resource of the dossier could not be loaded: {cause or error}",
+                                   hint="check the resource's address; only local files and data: URLs are "
+                                        "allowed") from error
+    if fetcher.refused:  # refused inside an SVG image, where WeasyPrint only logs the failure
+        raise fetcher.refused[0]
     return BuiltPdf(data=data, pages=len(document.pages), title=document.metadata.title,
                     warnings=tuple(log.messages))
 
 
-def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attachments: Sequence[Path] = ()) -> None:
+def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attachments: Sequence[Path] = (),
+               template_dirs: Sequence[Path] = ()) -> None:
     """Write the dossier PDF to ``out_path`` (atomically: a temporary file, then a rename).
 
     Parameters
@@ -168,13 +204,15 @@ def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attac
         The run's timestamp (``document["created"]``), used for every date in the PDF.
     attachments
         Files embedded in the PDF (the manifest and results.json), under their own names.
+    template_dirs
+        The user's template folders (``--templates``): files inside them may be loaded too.
 
     Raises
     ------
     ResourceRefusedError
         The HTML refers to a network resource or to a file outside the allowed folders.
     """
-    built = build_pdf(html, base_dir=base_dir, created=created, attachments=attachments)
+    built = build_pdf(html, base_dir=base_dir, created=created, attachments=attachments, template_dirs=template_dirs)
     out_path = Path(out_path)
     # A plain open() so the file gets the usual permissions (umask), unlike tempfile's 0600.
     temporary = out_path.with_name(f".{out_path.name}.{os.getpid()}.partial")

@@ -337,17 +337,24 @@ def presentation_attributes(svg: str) -> str:
 
 
 def prefix_svg_ids(svg: str, prefix: str) -> str:
-    """Prefix every ``id`` of an SVG, and every reference to it, with ``prefix-``."""
-    ids = set(_ID.findall(svg))
+    """Prefix every ``id`` of an SVG, and every reference to it, with ``prefix-``.
+
+    Only the tags are rewritten: a label whose text happens to read ``id="x"`` or ``url(#x)``
+    (matplotlib escapes ``<`` and ``>`` in text, not quotes) is left as written.
+    """
+    ids = {identifier for tag in _TAG.findall(svg) for identifier in _ID.findall(tag)}
     if not ids:
         return svg
 
     def rename(identifier: str) -> str:
         return f"{prefix}-{identifier}" if identifier in ids else identifier
 
-    svg = _ID.sub(lambda match: f'id="{rename(match.group(1))}"', svg)
-    svg = _URL_REF.sub(lambda match: f"url(#{rename(match.group(1))})", svg)
-    return _HREF_REF.sub(lambda match: f'{match.group(1)}#{rename(match.group(2))}"', svg)
+    def rename_in_tag(match: re.Match[str]) -> str:
+        tag = _ID.sub(lambda found: f'id="{rename(found.group(1))}"', match.group(0))
+        tag = _URL_REF.sub(lambda found: f"url(#{rename(found.group(1))})", tag)
+        return _HREF_REF.sub(lambda found: f'{found.group(1)}#{rename(found.group(2))}"', tag)
+
+    return _TAG.sub(rename_in_tag, svg)
 
 
 def render_plots(document: Mapping[str, Any]) -> dict[str, str]:

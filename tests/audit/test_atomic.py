@@ -140,7 +140,8 @@ def test_another_manifests_dossier_needs_force(small_project: Callable[..., Path
     before = _files(out)
     status, stdout, stderr = cli_run("run", second, "--out", out, "--format", "json", "--quiet")
     assert (status, stdout) == (2, "")
-    assert stderr == (f"{out}: error: the output folder {out} holds the dossier of {first.resolve()}, not of "
+    assert stderr == (f"{out}: error[output-other-dossier]: the output folder {out} holds the dossier of "
+                      f"{first.resolve()}, not of "
                       f"{second.resolve()}\n  hint: choose another folder, or pass --force to replace that dossier\n")
     assert _files(out) == before
     assert cli_run("run", second, "--out", out, "--format", "json", "--quiet", "--force")[0] == 0

@@ -139,8 +139,8 @@ def test_a_zip_that_is_not_a_bundle_exits_2(tmp_path: Path, cli_run) -> None:
     other.write_bytes(bundle_bytes({"a.txt": b"hello"}, "2026-01-01T00:00:00Z"))
     status, stdout, stderr = cli_run("verify", other)
     assert (status, stdout) == (2, "")
-    assert stderr == (f"{other}: error: {other} is a zip file but not a reportgen bundle (no bundle.json or "
-                      "results.json)\n  hint: name the bundle.zip that 'reportgen run --bundle' wrote\n")
+    assert stderr == (f"{other}: error[not-a-bundle]: {other} is a zip file but not a reportgen bundle (no "
+                      "bundle.json or results.json)\n  hint: name the bundle.zip that 'reportgen run --bundle' wrote\n")
 
 
 def test_an_absolute_data_path_cannot_be_bundled(small_project: Callable[..., Path], small_manifest: str,
@@ -152,7 +152,7 @@ def test_an_absolute_data_path_cannot_be_bundled(small_project: Callable[..., Pa
     out = tmp_path / "out"
     status, _, stderr = cli_run("run", manifest, "--out", out, "--format", "json", "--bundle")
     assert status == 2
-    assert f"error: datasets.sim.path: dataset 'sim' has the absolute path {data}, which a bundle cannot hold" \
-        in stderr
+    assert (f"error[bundle-input]: datasets.sim.path: dataset 'sim' has the absolute path {data}, which a bundle "
+            "cannot hold") in stderr
     assert "hint: write data paths relative to the manifest's folder, or run without --bundle" in stderr
     assert not out.exists()

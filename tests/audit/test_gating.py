@@ -12,7 +12,7 @@ import pytest
 import reportgen.runner
 from reportgen.cli import failing_regressions
 
-SHORT = '  short: {formula: "walk_a ~ walk_b", sample: {start: "2019-10"}}\n'
+SHORT = '  short: {formula: "walk_a ~ walk_b", sample: {start: "2019-10"}, too_short: report}\n'
 
 
 @pytest.fixture

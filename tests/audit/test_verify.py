@@ -123,13 +123,14 @@ def test_a_folder_that_is_not_a_dossier_exits_2(tmp_path: Path, cli_run) -> None
     (folder / "notes.txt").write_text("not a dossier")
     status, stdout, stderr = cli_run("verify", folder)
     assert (status, stdout) == (2, "")
-    assert stderr == (f"{folder}: error: {folder} is not a reportgen dossier: it has no results.json\n"
+    assert stderr == (f"{folder}: error[no-dossier]: {folder} is not a reportgen dossier: it has no results.json\n"
                       "  hint: name a folder written by 'reportgen run' or the bundle.zip that "
                       "'reportgen run --bundle' wrote\n")
     missing = tmp_path / "nowhere"
     status, _, stderr = cli_run("verify", missing)
     assert status == 2
-    assert stderr.startswith(f"{missing}: error: no dossier at {missing}: there is no such file or folder\n")
+    assert stderr.startswith(f"{missing}: error[no-dossier]: no dossier at {missing}: there is no such file or "
+                             "folder\n")
     status, _, stderr = cli_run("verify", folder / "notes.txt")
     assert status == 2
     assert f"{folder / 'notes.txt'} is not a zip file" in stderr

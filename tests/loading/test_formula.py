@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from reportgen.formula import FormulaSyntaxError, parse_formula
+from reportgen.formula import FormulaGrammarError, parse_formula
 
 
 def test_parses_dependent_and_regressors_in_order() -> None:
@@ -33,7 +33,7 @@ def test_whitespace_is_free() -> None:
     ],
 )
 def test_syntax_errors_name_the_position(text: str, message: str, position: int) -> None:
-    with pytest.raises(FormulaSyntaxError) as caught:
+    with pytest.raises(FormulaGrammarError) as caught:
         parse_formula(text)
     assert caught.value.message == message
     assert caught.value.position == position
@@ -42,12 +42,12 @@ def test_syntax_errors_name_the_position(text: str, message: str, position: int)
 def test_code_in_a_formula_is_refused_and_never_run(tmp_path) -> None:  # type: ignore[no-untyped-def]
     marker = tmp_path / "ran"
     text = f"y ~ __import__('os').system('touch {marker}')"
-    with pytest.raises(FormulaSyntaxError):
+    with pytest.raises(FormulaGrammarError):
         parse_formula(text)
     assert not marker.exists()
 
 
 def test_caret_points_under_the_problem() -> None:
-    with pytest.raises(FormulaSyntaxError) as caught:
+    with pytest.raises(FormulaGrammarError) as caught:
         parse_formula("y ~ x; rm")
     assert caught.value.caret() == "y ~ x; rm\n     ^"

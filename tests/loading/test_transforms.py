@@ -53,7 +53,8 @@ def test_lineage_reads_as_a_composition() -> None:
 def test_growth_of_non_positive_is_refused() -> None:
     with pytest.raises(TransformError) as caught:
         apply_transforms(_series([1.0, -2.0, 3.0]), [Step("growth")], "monthly", WHERE)
-    assert caught.value.render() == ("m.yaml:3:5: error: series.x.transform: 'growth' needs positive values; the "
+    assert caught.value.render() == ("m.yaml:3:5: error[non-positive]: series.x.transform: 'growth' needs positive "
+                                     "values; the "
                                      "series is -2 at 2010-02\n  hint: drop the log/growth step, or use a series "
                                      "that stays above zero")
 

@@ -9,7 +9,8 @@ from typing import Any
 import pytest
 from bs4 import BeautifulSoup, Tag
 
-from reportgen.render.environment import TemplateError, verdict_short
+from reportgen.errors import TemplateFolderMissingError, TemplateSyntaxError, TemplateUnsafeError
+from reportgen.render.environment import verdict_short
 from reportgen.render.html import render_html
 from reportgen.render.plots import render_plots
 
@@ -691,15 +692,20 @@ def test_user_template_errors_are_reported_with_a_location(tmp_path: Path, docum
     (tmp_path / "partials").mkdir()
     bad = tmp_path / "partials" / "cautions.html.j2"
     bad.write_text("<section>\n{{ no_such_name }}\n</section>\n", encoding="utf-8")
-    with pytest.raises(TemplateError) as caught:
+    with pytest.raises(TemplateUnsafeError) as caught:
         render_html(document, {}, [tmp_path])
     assert caught.value.location is not None
     assert caught.value.location.line == 2
+    assert caught.value.code == "template-unsafe"
     bad.write_text("{% if %}\n", encoding="utf-8")
-    with pytest.raises(TemplateError, match="syntax"):
+    with pytest.raises(TemplateSyntaxError, match="syntax") as syntax:
         render_html(document, {}, [tmp_path])
+    assert syntax.value.render().startswith(f"{bad}:1: error[template-syntax]: template syntax error: ")
 
 
 def test_missing_template_folder_is_an_error(tmp_path: Path, document: dict[str, Any]) -> None:
-    with pytest.raises(TemplateError, match="does not exist"):
+    with pytest.raises(TemplateFolderMissingError) as caught:
         render_html(document, {}, [tmp_path / "nowhere"])
+    assert caught.value.render() == (
+        f"error[template-folder-missing]: template folder {tmp_path / 'nowhere'} does not exist or is not a folder\n"
+        "  hint: check the --templates option")

@@ -9,10 +9,10 @@ from typing import Any
 
 import pytest
 
+from reportgen.errors import ResourceRefusedError, ResourceUnreadableError
 from reportgen.render.pdf import (
     BuiltPdf,
     LocalFileFetcher,
-    ResourceRefusedError,
     build_pdf,
     packaged_templates_dir,
     pdf_timestamp,
@@ -153,7 +153,7 @@ def test_fetcher_serves_local_files_and_data_urls(workspace: Path) -> None:
     assert response.read().startswith(b"reportgen: 1")
     assert fetcher.fetch((packaged_templates_dir() / "style.css").as_uri()).content_type == "text/css"
     assert fetcher.fetch("data:text/plain;base64,aGk=").read() == b"hi"
-    with pytest.raises(ResourceRefusedError, match="does not exist"):
+    with pytest.raises(ResourceUnreadableError, match="does not exist"):
         fetcher.fetch((workspace / "missing.png").as_uri())
 
 
