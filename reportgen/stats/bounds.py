@@ -32,8 +32,9 @@ import numpy as np
 import pandas as pd
 from statsmodels.tsa.ardl import ardl_select_order
 
-from reportgen.errors import DataError, InsufficientDataError
+from reportgen.errors import CollinearRegressorsError, SampleTooShortError, StatsInputError
 from reportgen.periods import index_labels
+from reportgen.stats.capture import warning_texts
 from reportgen.stats.types import BoundsTestResult
 from reportgen.vocabulary import SIGNIFICANCE_LEVELS
 
@@ -183,10 +184,6 @@ def bounds_critical_values(n_regressors: int, case: int = 3) -> dict[str, tuple[
     return dict(zip(_LEVELS, _TABLE[case][n_regressors], strict=True))
 
 
-def _format_warning(caught: warnings.WarningMessage) -> str:
-    return f"{caught.category.__name__}: {caught.message}"
-
-
 def _collinear_variable(values: np.ndarray, names: Sequence[str]) -> tuple[str, tuple[str, ...]] | None:
     design = np.column_stack([np.ones(values.shape[0]), values])
     labels = ["const", *names]
@@ -205,8 +202,10 @@ def _collinear_variable(values: np.ndarray, names: Sequence[str]) -> tuple[str, 
 def _sum_of_squares(target: np.ndarray, design: np.ndarray) -> float:
     if design.shape[1] == 0:
         return float(target @ target)
-    coefficients, *_ = np.linalg.lstsq(design, target, rcond=None)
-    residuals = target - design @ coefficients
+    norms = np.linalg.norm(design, axis=0)
+    scaled = design / np.where(norms > 0.0, norms, 1.0)  # the residuals do not depend on column scales
+    coefficients, *_ = np.linalg.lstsq(scaled, target, rcond=None)
+    residuals = target - scaled @ coefficients
     return float(residuals @ residuals)
 
 
@@ -259,11 +258,13 @@ def bounds_test(
 
     Raises
     ------
-    InsufficientDataError
+    SampleTooShortError
         When the sample has fewer than ``max_lags`` plus 10 plus the number of parameters of the
         largest ARDL searched.
-    DataError
-        When columns are missing, not finite, constant or perfectly collinear.
+    StatsInputError
+        When a variable appears twice, or columns are missing or not finite.
+    CollinearRegressorsError
+        When a variable is constant or the variables are perfectly collinear.
 
     Notes
     -----
@@ -298,32 +299,39 @@ def bounds_test(
         raise ValueError(f"the bounds test takes 1 to {len(_TABLE[case])} regressors, not {k}")
     variables = (dependent, *regressors)
     if len(set(variables)) != len(variables):
-        raise DataError(f"bounds test: a variable appears twice in {', '.join(variables)}")
+        raise StatsInputError(problem=f"bounds test: a variable appears twice in {', '.join(variables)}")
     missing = [name for name in variables if name not in data.columns]
     if missing:
-        raise DataError(f"bounds test: no column named {', '.join(missing)} in the data")
+        raise StatsInputError(problem=f"bounds test: no column named {', '.join(missing)} in the data")
     relation = f"{dependent} on {', '.join(regressors)}"
     frame = data.loc[:, list(variables)].astype(float)
     values = frame.to_numpy()
     if not np.all(np.isfinite(values)):
-        raise DataError(f"bounds test of {relation}: the data contain missing or infinite values")
+        raise StatsInputError(problem=f"bounds test of {relation}: the data contain missing or infinite values")
     collinear = _collinear_variable(values, variables)
     if collinear is not None:
         column, used = collinear
         depends = "constant" if used == ("const",) else (
             f"an exact linear combination of {', '.join(used)}" if used else "zero"
         )
-        raise DataError(f"bounds test of {relation}: the variables are perfectly collinear: {column} is {depends}")
+        raise CollinearRegressorsError(
+            problem=f"bounds test of {relation}: the variables are perfectly collinear: {column} is {depends}"
+        )
+    # Each variable divided by its largest magnitude: the F statistic and the lag search do not
+    # change when a variable is rescaled, and the regressions stay well scaled.
+    values = values / np.max(np.abs(values), axis=0)
 
     nobs = values.shape[0]
     model_terms, tested_terms = _CASE_TERMS[case]
     largest = len(model_terms) + max_lags + k * (max_lags + 1)
     needed = max_lags + largest + BOUNDS_MIN_EXTRA_OBSERVATIONS
     if nobs < needed:
-        raise InsufficientDataError(
-            f"the bounds test of {relation} searching ARDL lags up to {max_lags} needs at least {needed} "
-            f"observations ({max_lags} lags, {BOUNDS_MIN_EXTRA_OBSERVATIONS} plus the {largest} parameters "
-            f"of the largest ARDL); the sample has {nobs}"
+        raise SampleTooShortError(
+            problem=(
+                f"the bounds test of {relation} searching ARDL lags up to {max_lags} needs at least {needed} "
+                f"observations ({max_lags} lags, {BOUNDS_MIN_EXTRA_OBSERVATIONS} plus the {largest} parameters "
+                f"of the largest ARDL); the sample has {nobs}"
+            )
         )
 
     notes: list[str] = []
@@ -380,15 +388,15 @@ def bounds_test(
         tested = [*tested_terms, *(f"{name}(-1)" for name in variables)]
         norms = np.linalg.norm(design, axis=0)
         if np.any(norms == 0) or np.linalg.matrix_rank(design / norms) < design.shape[1]:
-            raise DataError(
-                f"bounds test of {relation}: the regressors of the conditional ECM are perfectly collinear"
+            raise CollinearRegressorsError(
+                problem=f"bounds test of {relation}: the regressors of the conditional ECM are perfectly collinear"
             )
         kept = [index for index, name in enumerate(columns) if name not in tested]
         unrestricted = _sum_of_squares(target, design)
         restricted = _sum_of_squares(target, design[:, kept])
         residual_df = effective - design.shape[1]
         statistic = float(((restricted - unrestricted) / len(tested)) / (unrestricted / residual_df))
-    notes.extend(dict.fromkeys(_format_warning(item) for item in caught))
+    notes.extend(warning_texts(caught))
 
     critical_values = bounds_critical_values(k, case)
     level_key = f"{round((1.0 - significance) * 100):d}%"

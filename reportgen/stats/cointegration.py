@@ -22,13 +22,15 @@ from typing import Final
 
 import numpy as np
 import pandas as pd
-from statsmodels.regression.linear_model import OLS
 from statsmodels.tsa import adfvalues
-from statsmodels.tsa.stattools import adfuller
 
-from reportgen.errors import DataError, InsufficientDataError
+from reportgen.errors import CollinearRegressorsError, SampleTooShortError, StatsInputError
 from reportgen.periods import index_labels
+from reportgen.stats.capture import warning_texts
+from reportgen.stats.checks import VARIATION_LIMIT
+from reportgen.stats.longrun import least_squares
 from reportgen.stats.types import CointegrationTest
+from reportgen.stats.unitroot import adf_lag_search, dickey_fuller_t_statistic
 from reportgen.vocabulary import SIGNIFICANCE_LEVELS, Deterministic
 
 __all__ = [
@@ -298,10 +300,6 @@ def _collinear_columns(design: np.ndarray, names: Sequence[str]) -> tuple[str, t
     return None
 
 
-def _format_warning(caught: warnings.WarningMessage) -> str:
-    return f"{caught.category.__name__}: {caught.message}"
-
-
 def engle_granger(
     data: pd.DataFrame,
     dependent: str,
@@ -345,18 +343,21 @@ def engle_granger(
 
     Raises
     ------
-    InsufficientDataError
+    SampleTooShortError
         When the sample has fewer than 20 observations more than the cointegrating regression has
         parameters, or fewer than the lags ask for.
-    DataError
-        When columns are missing, not finite, or perfectly collinear, or the cointegrating
-        regression fits exactly.
+    CollinearRegressorsError
+        When the regressors (with the deterministic terms) are perfectly collinear.
+    StatsInputError
+        When columns are missing or not finite, or the cointegrating regression fits exactly.
 
     Notes
     -----
     ``rejects`` is true when the p-value is below ``significance`` (a ``"<"`` bound counts as
-    below). The p-value is asymptotic while the critical values are for the residual ADF
-    regression's sample size; when they disagree about the decision a note says so.
+    below). With more than six variables MacKinnon's (1994) surfaces give no p-value: ``pvalue``
+    is None, a note says so and the critical value decides. The p-value is asymptotic while the
+    critical values are for the residual ADF regression's sample size; when they disagree about the
+    decision a note says so.
 
     References
     ----------
@@ -382,26 +383,30 @@ def engle_granger(
         raise ValueError("the Engle-Granger test needs at least one regressor")
     variables = (dependent, *regressors)
     if len(set(variables)) != len(variables):
-        raise DataError(f"Engle-Granger test: a variable appears twice in {', '.join(variables)}")
+        raise StatsInputError(problem=f"Engle-Granger test: a variable appears twice in {', '.join(variables)}")
     missing = [name for name in variables if name not in data.columns]
     if missing:
-        raise DataError(f"Engle-Granger test: no column named {', '.join(missing)} in the data")
+        raise StatsInputError(problem=f"Engle-Granger test: no column named {', '.join(missing)} in the data")
     n_variables = len(variables)
     _check_variables(n_variables)
 
     frame = data.loc[:, list(variables)].astype(float)
     values = frame.to_numpy()
     if not np.all(np.isfinite(values)):
-        raise DataError(f"Engle-Granger test of {dependent}: the data contain missing or infinite values")
+        raise StatsInputError(
+            problem=f"Engle-Granger test of {dependent}: the data contain missing or infinite values"
+        )
     nobs = values.shape[0]
     relation = f"{dependent} on {', '.join(regressors)}"
     n_parameters = (1 if deterministic == "constant" else 2) + len(regressors)
     needed = ENGLE_GRANGER_MIN_EXTRA_OBSERVATIONS + n_parameters
     if nobs < needed:
-        raise InsufficientDataError(
-            f"the Engle-Granger test of {relation} with {_deterministic_phrase(deterministic)} needs "
-            f"at least {needed} observations ({ENGLE_GRANGER_MIN_EXTRA_OBSERVATIONS} plus "
-            f"{n_parameters} parameters in the cointegrating regression); the sample has {nobs}"
+        raise SampleTooShortError(
+            problem=(
+                f"the Engle-Granger test of {relation} with {_deterministic_phrase(deterministic)} needs "
+                f"at least {needed} observations ({ENGLE_GRANGER_MIN_EXTRA_OBSERVATIONS} plus "
+                f"{n_parameters} parameters in the cointegrating regression); the sample has {nobs}"
+            )
         )
 
     # Step 1: the cointegrating regression.
@@ -416,19 +421,26 @@ def engle_granger(
     if collinear is not None:
         column, used = collinear
         depends = f" is an exact linear combination of {', '.join(used)}" if used else " is zero"
-        raise DataError(
-            f"Engle-Granger test of {relation}: the regressors are perfectly collinear: {column}{depends}"
+        raise CollinearRegressorsError(
+            problem=f"Engle-Granger test of {relation}: the regressors are perfectly collinear: {column}{depends}"
         )
 
     notes: list[str] = []
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        step1 = OLS(values[:, 0], design).fit()
-        residuals = np.asarray(step1.resid)
-        if step1.rsquared >= 1.0 - 100.0 * np.sqrt(np.finfo(float).eps):
-            raise DataError(
-                f"Engle-Granger test of {relation}: the cointegrating regression fits exactly "
-                f"(R² = 1), so the residual test is undefined"
+        # Each variable divided by its largest magnitude: the residuals change by the dependent
+        # variable's factor only, which the residual ADF t-statistic does not see.
+        scaled = values / np.max(np.abs(values), axis=0)
+        step1 = least_squares(design, scaled[:, 0])
+        residuals = step1.residuals
+        # Exact when the residuals are rounding error: a root mean square at most VARIATION_LIMIT
+        # of the dependent variable's largest magnitude (1 after the scaling), as for every fit.
+        if math.sqrt(float(residuals @ residuals) / nobs) <= VARIATION_LIMIT:
+            raise StatsInputError(
+                problem=(
+                    f"Engle-Granger test of {relation}: the cointegrating regression fits exactly "
+                    f"(R² = 1), so the residual test is undefined"
+                )
             )
 
         # Step 2: ADF without deterministic terms on the residuals.
@@ -437,36 +449,42 @@ def engle_granger(
             if lags < 0:
                 raise ValueError(f"lags must be non-negative, not {lags}")
             if lags > largest:
-                raise InsufficientDataError(
-                    f"the Engle-Granger test of {relation} with {lags} lagged differences needs at "
-                    f"least {2 * (lags + 1)} observations; the sample has {nobs}"
+                raise SampleTooShortError(
+                    problem=(
+                        f"the Engle-Granger test of {relation} with {lags} lagged differences needs at "
+                        f"least {2 * (lags + 1)} observations; the sample has {nobs}"
+                    )
                 )
-            maxlag, autolag = lags, None
+            used_lags = lags
             lag_rule = f"fixed at {lags}"
-        elif max_lags is not None:
-            if max_lags < 0:
-                raise ValueError(f"max_lags must be non-negative, not {max_lags}")
-            if max_lags > largest:
-                raise InsufficientDataError(
-                    f"the Engle-Granger test of {relation} searching up to {max_lags} lagged "
-                    f"differences needs at least {2 * (max_lags + 1)} observations; the sample has {nobs}"
-                )
-            maxlag, autolag = max_lags, lag_criterion
-            lag_rule = f"{_LAG_CRITERIA[lag_criterion]}, at most {max_lags} (set by the caller)"
         else:
-            schwert = schwert_max_lags(nobs)
-            maxlag, autolag = min(schwert, largest), lag_criterion
-            lag_rule = (
-                f"{_LAG_CRITERIA[lag_criterion]}, at most {maxlag} "
-                f"(Schwert 1989, floor of 12(T/100)^(1/4) at T={nobs}"
-            )
-            lag_rule += ", capped at T/2 - 1)" if maxlag < schwert else ")"
-        adf = adfuller(residuals, maxlag=maxlag, regression="n", autolag=autolag, result_object=True)
-    notes.extend(dict.fromkeys(_format_warning(item) for item in caught))
+            if max_lags is not None:
+                if max_lags < 0:
+                    raise ValueError(f"max_lags must be non-negative, not {max_lags}")
+                if max_lags > largest:
+                    raise SampleTooShortError(
+                        problem=(
+                            f"the Engle-Granger test of {relation} searching up to {max_lags} lagged "
+                            f"differences needs at least {2 * (max_lags + 1)} observations; the sample "
+                            f"has {nobs}"
+                        )
+                    )
+                maxlag = max_lags
+                lag_rule = f"{_LAG_CRITERIA[lag_criterion]}, at most {max_lags} (set by the caller)"
+            else:
+                schwert = schwert_max_lags(nobs)
+                maxlag = min(schwert, largest)
+                lag_rule = (
+                    f"{_LAG_CRITERIA[lag_criterion]}, at most {maxlag} "
+                    f"(Schwert 1989, floor of 12(T/100)^(1/4) at T={nobs}"
+                )
+                lag_rule += ", capped at T/2 - 1)" if maxlag < schwert else ")"
+            used_lags = adf_lag_search(residuals, maxlag, lag_criterion, "none")
+        statistic, test_nobs = dickey_fuller_t_statistic(
+            residuals, used_lags, "none", test=f"Engle-Granger test of {relation}", level=0
+        )
+    notes.extend(warning_texts(caught))
 
-    statistic = float(adf.statistic)
-    used_lags = int(adf.lags)
-    test_nobs = int(adf.nobs)
     critical_values = engle_granger_critical_values(n_variables, deterministic, test_nobs)
     level_key = f"{round(significance * 100):d}%"
     if n_variables <= _PVALUE_MAX_VARIABLES:
@@ -480,7 +498,7 @@ def engle_granger(
                 "the decision follows the p-value."
             )
     else:
-        pvalue, bound = math.nan, None
+        pvalue, bound = None, None
         rejects = statistic < critical_values[level_key]
         notes.append(
             f"MacKinnon (1994) p-value surfaces cover at most {_PVALUE_MAX_VARIABLES} variables; "
@@ -559,10 +577,11 @@ def engle_granger_all(
 
     Raises
     ------
-    DataError
-        When a variable appears twice, a column is missing or not finite, or the variables are
-        perfectly collinear.
-    InsufficientDataError
+    StatsInputError
+        When a variable appears twice or a column is missing or not finite.
+    CollinearRegressorsError
+        When the variables are perfectly collinear.
+    SampleTooShortError
         When the sample is too short for the test (see :func:`engle_granger`).
 
     Notes
@@ -585,7 +604,7 @@ def engle_granger_all(
             f"the Engle-Granger test needs at least two variables, not {len(variables)}"
         )
     if len(set(variables)) != len(variables):
-        raise DataError(f"Engle-Granger test: a variable appears twice in {', '.join(variables)}")
+        raise StatsInputError(problem=f"Engle-Granger test: a variable appears twice in {', '.join(variables)}")
     return tuple(
         engle_granger(
             data,

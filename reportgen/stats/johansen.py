@@ -40,8 +40,9 @@ from typing import Final, Literal
 import numpy as np
 import pandas as pd
 
-from reportgen.errors import DataError, InsufficientDataError
+from reportgen.errors import CollinearRegressorsError, SampleTooShortError, StatsInputError
 from reportgen.periods import index_labels
+from reportgen.stats.capture import warning_texts
 from reportgen.stats.types import JohansenResult, RankTest
 from reportgen.vocabulary import SIGNIFICANCE_LEVELS
 
@@ -258,8 +259,10 @@ def _deterministic_columns(names: Sequence[str], time: np.ndarray) -> list[np.nd
 def _residuals(values: np.ndarray, regressors: np.ndarray) -> np.ndarray:
     if regressors.shape[1] == 0:
         return values
-    coefficients, *_ = np.linalg.lstsq(regressors, values, rcond=None)
-    return values - regressors @ coefficients
+    norms = np.linalg.norm(regressors, axis=0)
+    scaled = regressors / np.where(norms > 0.0, norms, 1.0)  # the residuals do not depend on column scales
+    coefficients, *_ = np.linalg.lstsq(scaled, values, rcond=None)
+    return values - scaled @ coefficients
 
 
 def _full_column_rank(matrix: np.ndarray) -> bool:
@@ -283,10 +286,6 @@ def _var_aic(levels: np.ndarray, order: int, largest: int, deterministic: np.nda
     if sign <= 0:
         return math.inf
     return float(log_determinant + 2.0 * n * design.shape[1] / target.shape[0])
-
-
-def _format_warning(caught: warnings.WarningMessage) -> str:
-    return f"{caught.category.__name__}: {caught.message}"
 
 
 def _collinear_variable(levels: np.ndarray, names: Sequence[str]) -> tuple[str, tuple[str, ...]] | None:
@@ -347,13 +346,14 @@ def johansen(
 
     Raises
     ------
-    InsufficientDataError
+    SampleTooShortError
         When the regression would have fewer than 10 observations more than parameters per
-        equation.
-    DataError
-        When columns are missing or not finite, a variable is constant or an exact linear
-        combination of the others, or the regressors of the reduced-rank regression are
-        collinear.
+        equation, or the system has more variables than the critical-value tables cover.
+    StatsInputError
+        When a variable appears twice, or columns are missing or not finite.
+    CollinearRegressorsError
+        When a variable is constant or an exact linear combination of the others, or the
+        regressors of the reduced-rank regression are collinear.
 
     Notes
     -----
@@ -398,27 +398,35 @@ def johansen(
     if n < 2:
         raise ValueError(f"the Johansen test takes at least 2 variables, not {n}")
     if n > largest_dimension:
-        raise InsufficientDataError(
-            f"reportgen's critical values for Johansen case {case} cover at most {largest_dimension} variables; "
-            f"the system has {n}"
+        raise SampleTooShortError(
+            problem=(
+                f"reportgen's critical values for Johansen case {case} cover at most {largest_dimension} "
+                f"variables; the system has {n}"
+            ),
+            hint=f"test at most {largest_dimension} variables in one system",
         )
     if len(set(variables)) != n:
-        raise DataError(f"Johansen test: a variable appears twice in {', '.join(variables)}")
+        raise StatsInputError(problem=f"Johansen test: a variable appears twice in {', '.join(variables)}")
     missing = [name for name in variables if name not in data.columns]
     if missing:
-        raise DataError(f"Johansen test: no column named {', '.join(missing)} in the data")
+        raise StatsInputError(problem=f"Johansen test: no column named {', '.join(missing)} in the data")
     system = ", ".join(variables)
     frame = data.loc[:, list(variables)].astype(float)
     levels = frame.to_numpy()
     if not np.all(np.isfinite(levels)):
-        raise DataError(f"Johansen test of {system}: the data contain missing or infinite values")
+        raise StatsInputError(problem=f"Johansen test of {system}: the data contain missing or infinite values")
     collinear = _collinear_variable(levels, variables)
     if collinear is not None:
         column, used = collinear
         depends = f"an exact linear combination of {', '.join(used)}" if used else "zero"
         if used == ("const",):
             depends = "constant"
-        raise DataError(f"Johansen test of {system}: the variables are perfectly collinear: {column} is {depends}")
+        raise CollinearRegressorsError(
+            problem=f"Johansen test of {system}: the variables are perfectly collinear: {column} is {depends}"
+        )
+    # Each variable divided by its largest magnitude: the canonical correlations, and so every
+    # statistic, do not change when a variable is rescaled, and the regressions stay well scaled.
+    levels = levels / np.max(np.abs(levels), axis=0)
 
     nobs = levels.shape[0]
     restricted_terms, unrestricted_terms = _CASE_TERMS[case]
@@ -434,14 +442,16 @@ def johansen(
         parameters = n + n_restricted + n * lag_count + n_unrestricted
         return parameters + JOHANSEN_MIN_EXTRA_OBSERVATIONS + lag_count + 1
 
-    def too_short(lag_count: int, searching: bool) -> InsufficientDataError:
+    def too_short(lag_count: int, searching: bool) -> SampleTooShortError:
         parameters = n + n_restricted + n * lag_count + n_unrestricted
         what = "searching up to" if searching else "with"
-        return InsufficientDataError(
-            f"the Johansen test of {system} in case {case} {what} {lag_count} lagged differences needs "
-            f"at least {needed(lag_count)} observations ({JOHANSEN_MIN_EXTRA_OBSERVATIONS} more than the "
-            f"{parameters} parameters per equation, plus {lag_count + 1} lost to differencing and lags); "
-            f"the sample has {nobs}"
+        return SampleTooShortError(
+            problem=(
+                f"the Johansen test of {system} in case {case} {what} {lag_count} lagged differences needs "
+                f"at least {needed(lag_count)} observations ({JOHANSEN_MIN_EXTRA_OBSERVATIONS} more than the "
+                f"{parameters} parameters per equation, plus {lag_count + 1} lost to differencing and lags); "
+                f"the sample has {nobs}"
+            )
         )
 
     notes: list[str] = []
@@ -504,21 +514,25 @@ def johansen(
             short_run.append(seasonal_columns[rows])
         z2 = np.column_stack(short_run) if short_run else np.empty((effective, 0))
         if not _full_column_rank(z2) or not _full_column_rank(np.column_stack([z1, z2])):
-            raise DataError(
-                f"Johansen test of {system}: the regressors of the reduced-rank regression are "
-                "perfectly collinear (lagged differences, level terms and deterministic terms)"
+            raise CollinearRegressorsError(
+                problem=(
+                    f"Johansen test of {system}: the regressors of the reduced-rank regression are "
+                    "perfectly collinear (lagged differences, level terms and deterministic terms)"
+                )
             )
         r0 = _residuals(z0, z2)
         r1 = _residuals(z1, z2)
         if not _full_column_rank(r0):
-            raise DataError(
-                f"Johansen test of {system}: the differenced variables are perfectly collinear once "
-                "the short-run terms are removed"
+            raise CollinearRegressorsError(
+                problem=(
+                    f"Johansen test of {system}: the differenced variables are perfectly collinear once "
+                    "the short-run terms are removed"
+                )
             )
         q0, _ = np.linalg.qr(r0)
         q1, _ = np.linalg.qr(r1)
         correlations = np.linalg.svd(q0.T @ q1, compute_uv=False)
-    notes.extend(dict.fromkeys(_format_warning(item) for item in caught))
+    notes.extend(warning_texts(caught))
 
     eigenvalues = np.clip(np.sort(correlations**2)[::-1][:n], 0.0, 1.0 - np.finfo(float).eps)
     log_terms = np.log1p(-eigenvalues)

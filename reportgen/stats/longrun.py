@@ -27,7 +27,8 @@ import pandas as pd
 import scipy.linalg
 from scipy import stats
 
-from reportgen.errors import DataError, InsufficientDataError
+from reportgen.errors import SampleTooShortError, StatsInputError
+from reportgen.stats.numerics import nested_least_squares
 
 __all__ = [
     "DYNAMIC_OLS_MIN_EXTRA_OBSERVATIONS",
@@ -283,10 +284,9 @@ def _rows(nobs: int, leads_lags: int) -> int:
     return nobs - 1 - 2 * leads_lags
 
 
-def _information_criterion(residuals: np.ndarray, n_parameters: int, criterion: str) -> float:
-    nobs = residuals.shape[0]
+def _information_criterion(residual_sum: float, nobs: int, n_parameters: int, criterion: str) -> float:
     penalty = 2.0 if criterion == "aic" else math.log(nobs)
-    return math.log(float(residuals @ residuals) / nobs) + n_parameters * penalty / nobs
+    return math.log(max(residual_sum, np.finfo(float).tiny) / nobs) + n_parameters * penalty / nobs
 
 
 def dynamic_ols_specification(
@@ -325,10 +325,10 @@ def dynamic_ols_specification(
 
     Raises
     ------
-    InsufficientDataError
+    SampleTooShortError
         When even ``p = 0`` (or the fixed ``p``) leaves fewer than 10 observations more than
         parameters.
-    DataError
+    StatsInputError
         When a column is missing or not finite.
 
     References
@@ -347,10 +347,10 @@ def dynamic_ols_specification(
     variables = (dependent, *regressors)
     missing = [name for name in variables if name not in data.columns]
     if missing:
-        raise DataError(f"dynamic OLS: no column named {', '.join(missing)} in the data")
+        raise StatsInputError(problem=f"dynamic OLS: no column named {', '.join(missing)} in the data")
     frame = data.loc[:, list(variables)].astype(float)
     if not np.all(np.isfinite(frame.to_numpy())):
-        raise DataError(f"dynamic OLS of {dependent}: the data contain missing or infinite values")
+        raise StatsInputError(problem=f"dynamic OLS of {dependent}: the data contain missing or infinite values")
     nobs = len(frame)
     n_regressors = len(regressors)
     relation = f"{dependent} on {', '.join(regressors)}"
@@ -363,11 +363,13 @@ def dynamic_ols_specification(
         if leads_lags < 0:
             raise ValueError(f"leads_lags must be non-negative, not {leads_lags}")
         if nobs < needed(leads_lags):
-            raise InsufficientDataError(
-                f"dynamic OLS of {relation} with {leads_lags} leads and lags needs at least "
-                f"{needed(leads_lags)} observations ({_parameters(n_regressors, leads_lags)} parameters "
-                f"plus {DYNAMIC_OLS_MIN_EXTRA_OBSERVATIONS}, and {1 + 2 * leads_lags} lost to "
-                f"differencing, leads and lags); the sample has {nobs}"
+            raise SampleTooShortError(
+                problem=(
+                    f"dynamic OLS of {relation} with {leads_lags} leads and lags needs at least "
+                    f"{needed(leads_lags)} observations ({_parameters(n_regressors, leads_lags)} parameters "
+                    f"plus {DYNAMIC_OLS_MIN_EXTRA_OBSERVATIONS}, and {1 + 2 * leads_lags} lost to "
+                    f"differencing, leads and lags); the sample has {nobs}"
+                )
             )
         chosen, largest = leads_lags, leads_lags
         rule = f"fixed at {leads_lags} leads and lags"
@@ -381,20 +383,27 @@ def dynamic_ols_specification(
         while largest >= 0 and nobs < needed(largest):
             largest -= 1
         if largest < 0:
-            raise InsufficientDataError(
-                f"dynamic OLS of {relation} needs at least {needed(0)} observations even without "
-                f"leads and lags ({_parameters(n_regressors, 0)} parameters plus "
-                f"{DYNAMIC_OLS_MIN_EXTRA_OBSERVATIONS}, and 1 lost to differencing); the sample has {nobs}"
+            raise SampleTooShortError(
+                problem=(
+                    f"dynamic OLS of {relation} needs at least {needed(0)} observations even without "
+                    f"leads and lags ({_parameters(n_regressors, 0)} parameters plus "
+                    f"{DYNAMIC_OLS_MIN_EXTRA_OBSERVATIONS}, and 1 lost to differencing); the sample has {nobs}"
+                )
             )
         full, long_run_terms, _ = _design(frame, dependent, regressors, largest)
         common = full.dropna()
         endog = common[dependent].to_numpy()
+        # The candidates are nested once the columns are ordered by |shift|: the long-run terms, the
+        # current differences, then lag and lead 1, 2, ...; one factorisation gives every
+        # candidate's residual sum of squares (each candidate refitted would cost a QR apiece).
+        nested = [*long_run_terms, *(lead_lag_name(variable, 0) for variable in regressors)]
+        for shift in range(1, largest + 1):
+            for variable in regressors:
+                nested.extend((lead_lag_name(variable, -shift), lead_lag_name(variable, shift)))
+        sums_of_squares = nested_least_squares(common.loc[:, nested].to_numpy(), endog).sums_of_squares()
         for p in range(largest + 1):
-            columns = [*long_run_terms, *(
-                lead_lag_name(variable, shift) for variable in regressors for shift in range(-p, p + 1)
-            )]
-            solution = least_squares(common.loc[:, columns].to_numpy(), endog)
-            values[p] = _information_criterion(solution.residuals, len(columns), criterion)
+            columns = len(long_run_terms) + n_regressors * (2 * p + 1)
+            values[p] = _information_criterion(float(sums_of_squares[columns - 1]), len(common), columns, criterion)
         chosen = min(values, key=lambda p: (values[p], p))
         source = f"int(T^(1/3)) at T={nobs}" if default else "set by the caller"
         rule = (

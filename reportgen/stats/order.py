@@ -92,6 +92,8 @@ import pandas as pd
 from scipy.stats import norm
 
 from reportgen.errors import DataError, InsufficientDataError, ReportgenError
+from reportgen.stats.capture import collecting_warnings
+from reportgen.stats.checks import check_variation
 from reportgen.stats.fanchart import random_walk_fan, series_seed
 from reportgen.stats.types import GridCell, OrderVerdict, StatsSettings, TestResult
 from reportgen.stats.unitroot import (
@@ -115,6 +117,7 @@ __all__ = [
     "GRID_RULE",
     "GRID_TERMS",
     "TREND_CRITICAL_VALUES",
+    "check_variation",
     "difference",
     "integration_order",
     "kpss_bandwidth",
@@ -858,8 +861,16 @@ def integration_order(
     -------
     OrderVerdict
         The order (0, 1, 2, or None with a reason), the terms and their reason per level, every
-        test run, the trail in plain sentences, captured library warnings, the grid with the
-        fragility flag and, for an order of 1 or more, a fan chart of calibrated random walks.
+        test run, the trail in plain sentences, the grid with the fragility flag and, for an order
+        of 1 or more, a fan chart of calibrated random walks. ``notes`` holds every warning a
+        library raised anywhere in the procedure (tests, grid, Zivot-Andrews, fan chart), as
+        ``"Category: message"`` once each in order of appearance; none reaches the terminal.
+
+    Raises
+    ------
+    ConstantSeriesError
+        When the series is constant or varies only in its last significant digits
+        (:func:`~reportgen.stats.checks.check_variation`), before any test is run.
 
     References
     ----------
@@ -892,6 +903,29 @@ def integration_order(
     Granger, C. W. J. and Newbold, P. (1974). Spurious regressions in econometrics. *Journal of
     Econometrics* 2, 111-120.
     """
+    check_variation(name, values)
+    with collecting_warnings() as captured:
+        verdict = _integration_order(
+            name, values, settings, deterministic_override, grid=grid, break_check=break_check
+        )
+    # The tests' own warnings are already in the notes with the test named; the others join them.
+    stated = " ".join(verdict.notes)
+    extra = [text for text in captured if text not in stated]
+    if not extra:
+        return verdict
+    return dataclasses.replace(verdict, notes=tuple(dict.fromkeys([*verdict.notes, *extra])))
+
+
+def _integration_order(
+    name: str,
+    values: pd.Series,
+    settings: StatsSettings,
+    deterministic_override: str | None,
+    *,
+    grid: bool,
+    break_check: bool,
+) -> OrderVerdict:
+    """The body of :func:`integration_order`, run with library warnings recorded."""
     if deterministic_override is not None and deterministic_override not in ("constant", "constant-trend"):
         raise ValueError(
             f"deterministic_override must be 'constant' or 'constant-trend'; got {deterministic_override!r}"

@@ -25,12 +25,21 @@ import numpy as np
 import pandas as pd
 from scipy import stats
 from statsmodels.regression.linear_model import OLS
-from statsmodels.stats.diagnostic import acorr_breusch_godfrey, acorr_ljungbox, het_breuschpagan
+from statsmodels.stats.diagnostic import acorr_breusch_godfrey, het_breuschpagan
 from statsmodels.stats.stattools import jarque_bera
 
-from reportgen.errors import DataError, InsufficientDataError
+from reportgen.errors import (
+    CollinearRegressorsError,
+    ConstantDependentError,
+    InsufficientDataError,
+    NearlyCollinearError,
+    SampleTooShortError,
+    StatsInputError,
+)
 from reportgen.periods import index_labels
 from reportgen.stats.bounds import bounds_test
+from reportgen.stats.capture import collecting_warnings, warning_texts
+from reportgen.stats.checks import VARIATION_LIMIT, relative_spread
 from reportgen.stats.cointegration import engle_granger_all
 from reportgen.stats.johansen import johansen
 from reportgen.stats.longrun import (
@@ -213,8 +222,8 @@ def _percent(significance: float) -> str:
     return f"{round(significance * 100):d}%"
 
 
-def _format_pvalue(pvalue: float, bound: str | None = None) -> str:
-    if math.isnan(pvalue):
+def _format_pvalue(pvalue: float | None, bound: str | None = None) -> str:
+    if pvalue is None or not math.isfinite(pvalue):
         return "p not available"
     if pvalue >= 0.01:
         text = f"{pvalue:.2f}"
@@ -289,6 +298,62 @@ def _reset_test(
     return statistic, float(stats.f.sf(statistic, numerator_df, denominator_df)), numerator_df, denominator_df
 
 
+def _check_dependent(regression: str, dependent: str, endog: np.ndarray) -> None:
+    """Refuse a dependent variable that is constant, or varies only in its last digits, over the sample."""
+    spread = relative_spread(endog)
+    if spread == 0.0:
+        raise ConstantDependentError(regression=regression, dependent=dependent)
+    if spread <= VARIATION_LIMIT:
+        raise ConstantDependentError(
+            f"regression {regression!r}: {dependent} is numerically constant over the sample (relative "
+            f"spread {spread:.1g}, at most {VARIATION_LIMIT:g})",
+            regression=regression,
+            dependent=dependent,
+        )
+
+
+def _check_design(regression: str, role: str, design: pd.DataFrame) -> None:
+    """Refuse perfectly collinear regressors, then nearly collinear ones (condition number above the limit)."""
+    collinear = _collinearity(design)
+    if collinear is not None:
+        column, used = collinear
+        depends = f"an exact linear combination of {', '.join(used)}" if used else "zero throughout"
+        raise CollinearRegressorsError(
+            problem=(
+                f"regression {regression!r}: the regressors of the {role} fit are perfectly collinear: "
+                f"{column} is {depends}"
+            ),
+            hint="drop one of the collinear regressors or change its transform",
+        )
+    nearly = _near_collinear(design)
+    if nearly is not None:
+        condition, involved = nearly
+        raise NearlyCollinearError(
+            problem=(
+                f"regression {regression!r}: the regressors of the {role} fit are nearly collinear: "
+                f"{', '.join(involved)} (condition number {condition:.1e} after scaling each column to "
+                f"unit length, above {CONDITION_NUMBER_LIMIT:.0e})"
+            ),
+            hint="drop one of these regressors or change its transform",
+        )
+
+
+def _ljung_box(residuals: np.ndarray, lags: int) -> tuple[float, float]:
+    """Ljung and Box's (1978) Q on ``lags`` autocorrelations of the residuals, and its chi-squared p-value.
+
+    ``Q = n (n + 2) sum_{k=1..h} r_k^2 / (n - k)`` with ``r_k`` the autocorrelations of the demeaned
+    series with divisor ``n``: statsmodels' ``acorr_ljungbox``, whose autocorrelations are computed
+    by a full convolution that takes ``O(n^2)`` time (seconds at 100,000 observations); here each
+    of the ``h`` sums is computed directly, ``O(n h)``.
+    """
+    centred = residuals - residuals.mean()
+    nobs = centred.size
+    denominator = float(centred @ centred)
+    autocorrelations = np.array([float(centred[lag:] @ centred[:-lag]) for lag in range(1, lags + 1)]) / denominator
+    statistic = float(nobs * (nobs + 2) * np.sum(autocorrelations**2 / (nobs - np.arange(1, lags + 1))))
+    return statistic, float(stats.chi2.sf(statistic, lags))
+
+
 def _fit(
     regression: str,
     role: str,
@@ -311,33 +376,17 @@ def _fit(
     n_parameters = len(terms)
     needed = n_parameters + MIN_EXTRA_OBSERVATIONS
     if nobs < needed:
-        raise InsufficientDataError(
-            f"regression {regression!r}: the {role} fit ({n_parameters} parameters) needs at least "
-            f"{needed} observations ({n_parameters} parameters plus {MIN_EXTRA_OBSERVATIONS}); "
-            f"the sample has {nobs}"
+        raise SampleTooShortError(
+            problem=(
+                f"regression {regression!r}: the {role} fit ({n_parameters} parameters) needs at least "
+                f"{needed} observations ({n_parameters} parameters plus {MIN_EXTRA_OBSERVATIONS}); "
+                f"the sample has {nobs}"
+            )
         )
     design = frame.loc[:, list(terms)]
-    collinear = _collinearity(design)
-    if collinear is not None:
-        column, used = collinear
-        depends = f"an exact linear combination of {', '.join(used)}" if used else "zero throughout"
-        raise DataError(
-            f"regression {regression!r}: the regressors of the {role} fit are perfectly collinear: "
-            f"{column} is {depends}",
-            hint="drop one of the collinear regressors or change its transform",
-        )
-    nearly = _near_collinear(design)
-    if nearly is not None:
-        condition, involved = nearly
-        raise DataError(
-            f"regression {regression!r}: the regressors of the {role} fit are nearly collinear: "
-            f"{', '.join(involved)} (condition number {condition:.1e} after scaling each column to "
-            f"unit length, above {CONDITION_NUMBER_LIMIT:.0e})",
-            hint="drop one of these regressors or change its transform",
-        )
     endog = frame[dependent_label].to_numpy(dtype=float)
-    if np.ptp(endog) == 0:
-        raise DataError(f"regression {regression!r}: {dependent_label} is constant over the sample")
+    _check_dependent(regression, dependent_label, endog)
+    _check_design(regression, role, design)
     exog = design.to_numpy(dtype=float)
     hac_lags = newey_west_lags(nobs)
     lb_lags = diagnostic_lags(nobs)
@@ -347,11 +396,13 @@ def _fit(
         warnings.simplefilter("always")
         solution = least_squares(exog, endog)
         residuals = solution.residuals  # y - X b, from the fitted equation
-        covariance = newey_west_covariance(exog, residuals, hac_lags, small_sample_correction=True)
-        std_errors = np.sqrt(np.diag(covariance))
-        t_statistics = solution.coefficients / std_errors
-        pvalues = 2.0 * stats.t.sf(np.abs(t_statistics), freedom)
         residual_sum = float(residuals @ residuals)
+        _check_not_exact(regression, role, dependent_label, terms, endog, residual_sum)
+        covariance = newey_west_covariance(exog, residuals, hac_lags, small_sample_correction=True)
+        std_errors = np.sqrt(np.clip(np.diag(covariance), 0.0, None))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t_statistics = solution.coefficients / std_errors
+        pvalues = 2.0 * stats.t.sf(np.abs(t_statistics), freedom)
         total_sum = float(np.sum((endog - endog.mean()) ** 2))
         r_squared = 1.0 - residual_sum / total_sum
         adj_r_squared = 1.0 - (1.0 - r_squared) * (nobs - 1) / freedom
@@ -363,28 +414,38 @@ def _fit(
         endog_scale = float(np.std(endog))
         scaled_design = exog / solution.column_norms
         scaled_results = OLS(endog / endog_scale, scaled_design).fit()
-        ljung_box = acorr_ljungbox(residuals, lags=[lb_lags], return_df=True)
+        lb_statistic, lb_pvalue = _ljung_box(residuals, lb_lags)
         jb_statistic, jb_pvalue, _, _ = jarque_bera(residuals)
         breusch_godfrey = acorr_breusch_godfrey(scaled_results, nlags=lb_lags, result_object=True)
         bp_statistic, bp_pvalue, _, _ = het_breuschpagan(residuals / endog_scale, scaled_design, robust=True)
         reset = _reset_test(endog / endog_scale, scaled_design, solution.fitted / endog_scale, residuals / endog_scale)
     notes = list(extra_notes)
-    notes.extend(dict.fromkeys(f"{item.category.__name__}: {item.message}" for item in caught))
+    notes.extend(warning_texts(caught))
 
     reported = list(terms) if reported_terms is None else list(reported_terms)
     positions = {term: position for position, term in enumerate(terms)}
-    coefficients = tuple(
-        Coefficient(
-            term=term,
-            estimate=float(solution.coefficients[positions[term]]),
-            std_error=float(std_errors[positions[term]]),
-            t_statistic=float(t_statistics[positions[term]]),
-            pvalue=float(pvalues[positions[term]]),
+    coefficients: list[Coefficient] = []
+    for term in reported:
+        position = positions[term]
+        t_statistic, pvalue = float(t_statistics[position]), float(pvalues[position])
+        if not (math.isfinite(t_statistic) and math.isfinite(pvalue) and std_errors[position] > 0.0):
+            notes.append(
+                f"The HAC standard error of {term} is zero (its scores x_t e_t vanish, as for a dummy that "
+                "is non-zero only where the residual is zero), so its t-statistic and p-value are not defined."
+            )
+            t_statistic_value: float | None = None
+            pvalue_value: float | None = None
+        else:
+            t_statistic_value, pvalue_value = t_statistic, pvalue
+        coefficients.append(
+            Coefficient(
+                term=term,
+                estimate=float(solution.coefficients[position]),
+                std_error=float(std_errors[position]),
+                t_statistic=t_statistic_value,
+                pvalue=pvalue_value,
+            )
         )
-        for term in reported
-    )
-    lb_statistic = float(ljung_box["lb_stat"].iloc[0])
-    lb_pvalue = float(ljung_box["lb_pvalue"].iloc[0])
     diagnostics = [
         DiagnosticTest(
             name=f"Ljung-Box (Q, {lb_lags} lags)",
@@ -434,12 +495,13 @@ def _fit(
                 rejects=reset_pvalue < significance,
             )
         )
+    diagnostics = _finite_diagnostics(diagnostics, notes)
     dates = _labels(frame.index)
     fit = Fit(
         role=role,
         equation=f"{dependent_label} ~ {' + '.join(terms)}",
         dependent=dependent_label,
-        coefficients=coefficients,
+        coefficients=tuple(coefficients),
         covariance=(
             f"HAC (Newey-West, Bartlett kernel, {hac_lags} lags by {NEWEY_WEST_RULE} at T={nobs}, "
             f"small-sample correction: the covariance is multiplied by T/(T-k) = {nobs}/{freedom}; "
@@ -462,6 +524,38 @@ def _fit(
         small_sample_correction=True,
     )
     return _Estimate(fit=fit, residuals=pd.Series(residuals, index=frame.index, dtype=float))
+
+
+def _check_not_exact(
+    regression: str, role: str, dependent: str, terms: Sequence[str], endog: np.ndarray, residual_sum: float
+) -> None:
+    """Refuse a fit whose residuals are rounding error: at most ``VARIATION_LIMIT`` of the dependent
+    variable's largest magnitude in root mean square (the threshold of
+    :func:`~reportgen.stats.checks.check_variation`). Standard errors, R² against Durbin-Watson and
+    every diagnostic would describe that rounding error."""
+    largest = float(np.max(np.abs(endog)))
+    if math.sqrt(residual_sum / endog.size) <= VARIATION_LIMIT * largest:
+        raise StatsInputError(
+            problem=(
+                f"regression {regression!r}: the {role} fit is exact: {dependent} is a linear combination of "
+                f"{', '.join(terms)} up to rounding, so no standard error or residual diagnostic is defined"
+            ),
+            hint="check whether the dependent variable was computed from the regressors",
+        )
+
+
+def _finite_diagnostics(diagnostics: Sequence[DiagnosticTest], notes: list[str]) -> tuple[DiagnosticTest, ...]:
+    """The diagnostics whose statistic and p-value are finite; each other one is left out with a note."""
+    kept: list[DiagnosticTest] = []
+    for diagnostic in diagnostics:
+        if math.isfinite(diagnostic.statistic) and math.isfinite(diagnostic.pvalue):
+            kept.append(diagnostic)
+        else:
+            notes.append(
+                f"{diagnostic.name} is not reported: its statistic cannot be computed on these residuals "
+                "(a zero variance in its auxiliary regression)."
+            )
+    return tuple(kept)
 
 
 def _with_constant(data: pd.DataFrame) -> pd.DataFrame:
@@ -788,7 +882,7 @@ def _cointegrated_fits(
     outcome.static_note = True
     try:
         outcome.long_run = _dynamic_ols_estimate(name, frame, dependent, integrated, settings).fit
-    except InsufficientDataError as error:
+    except (InsufficientDataError, StatsInputError) as error:
         trail.append(f"The dynamic OLS long-run fit is left out: {error.message}.")
     else:
         slopes = ", ".join(
@@ -809,7 +903,7 @@ def _cointegrated_fits(
         error_correction = _error_correction_estimate(
             name, frame, dependent, integrated, stationary, order, static.residuals, significance
         ).fit
-    except InsufficientDataError as error:
+    except (InsufficientDataError, StatsInputError) as error:
         trail.append(f"The error-correction fit is left out: {error.message}.")
         return
     outcome.error_correction = error_correction
@@ -817,10 +911,11 @@ def _cointegrated_fits(
     outcome.adjustment_speed = adjustment.estimate
     half_life, sentence = _half_life(adjustment.estimate)
     outcome.half_life = half_life
-    significant = adjustment.pvalue < significance and adjustment.estimate < 0
+    significant = adjustment.pvalue is not None and adjustment.pvalue < significance and adjustment.estimate < 0
+    t_text = "not defined" if adjustment.t_statistic is None else f"{adjustment.t_statistic:.2f}"
     trail.append(
         f"Error-correction coefficient {adjustment.estimate:.3f} (t = "
-        f"{adjustment.t_statistic:.2f}, {_format_pvalue(adjustment.pvalue)}"
+        f"{t_text}, {_format_pvalue(adjustment.pvalue)}"
         f"{'' if significant else ', not significantly negative'})"
         + (f": {sentence}." if half_life is not None else ".")
     )
@@ -1017,14 +1112,22 @@ def assess_regression(
     -------
     RegressionAssessment
         The verdict, the decision trail and every fit the verdict calls for; see
-        :data:`VERDICT_RULE`.
+        :data:`VERDICT_RULE`. ``warnings`` holds every warning a library raised during the
+        assessment, as ``"Category: message"``, once each, in order; none reaches the terminal.
 
     Raises
     ------
-    DataError
+    StatsInputError
         When columns are missing or not finite, the dependent variable appears among the
-        regressors, or regressors are perfectly or nearly collinear.
-    InsufficientDataError
+        regressors or a regressor twice, or the levels fit is exact (residuals that are rounding
+        error).
+    ConstantDependentError
+        When the dependent variable is constant over the sample, or varies only in its last
+        significant digits; checked first.
+    CollinearRegressorsError, NearlyCollinearError
+        When the regressors, with the constant, are perfectly or nearly collinear; checked before
+        any test or fit, whatever the orders of integration.
+    SampleTooShortError
         When the levels fit has fewer than 10 observations more than parameters.
 
     Notes
@@ -1076,18 +1179,39 @@ def assess_regression(
     if not regressors:
         raise ValueError(f"regression {name!r} has no regressors")
     if dependent in regressors:
-        raise DataError(f"regression {name!r}: {dependent} appears on both sides of the formula")
+        raise StatsInputError(problem=f"regression {name!r}: {dependent} appears on both sides of the formula")
     if len(set(regressors)) != len(regressors):
-        raise DataError(f"regression {name!r}: a regressor appears twice in {', '.join(regressors)}")
+        raise StatsInputError(problem=f"regression {name!r}: a regressor appears twice in {', '.join(regressors)}")
     missing = [variable for variable in variables if variable not in data.columns]
     if missing:
-        raise DataError(f"regression {name!r}: no column named {', '.join(missing)} in the data")
+        raise StatsInputError(problem=f"regression {name!r}: no column named {', '.join(missing)} in the data")
     absent = [variable for variable in variables if variable not in orders]
     if absent:
         raise ValueError(f"regression {name!r}: no order of integration given for {', '.join(absent)}")
     frame = data.loc[:, list(variables)].astype(float)
     if not np.all(np.isfinite(frame.to_numpy())):
-        raise DataError(f"regression {name!r}: the data contain missing or infinite values")
+        raise StatsInputError(problem=f"regression {name!r}: the data contain missing or infinite values")
+    # The levels design is checked before anything else, whatever route the verdict takes: a
+    # constant dependent variable, then perfectly and nearly collinear regressors.
+    _check_dependent(name, dependent, frame[dependent].to_numpy())
+    _check_design(name, "levels", _with_constant(frame.loc[:, list(regressors)]))
+    with collecting_warnings() as captured:
+        assessment = _assess(name, formula, dependent, regressors, frame, orders, settings, fragile_orders)
+    return dataclasses.replace(assessment, warnings=tuple(captured))
+
+
+def _assess(
+    name: str,
+    formula: str,
+    dependent: str,
+    regressors: tuple[str, ...],
+    frame: pd.DataFrame,
+    orders: Mapping[str, int | None],
+    settings: StatsSettings,
+    fragile_orders: Mapping[str, str] | None,
+) -> RegressionAssessment:
+    """The body of :func:`assess_regression` on checked data, run with library warnings collected."""
+    variables = (dependent, *regressors)
     variable_orders: dict[str, int | None] = {variable: orders[variable] for variable in variables}
     significance = settings.significance
     labels = _labels(frame.index)
@@ -1153,7 +1277,7 @@ def assess_regression(
             outcome.differences = _differences_estimate(
                 name, frame, dependent, regressors, known, significance
             ).fit
-        except InsufficientDataError as error:
+        except (InsufficientDataError, StatsInputError) as error:
             trail.append(f"The differences fit is left out: {error.message}.")
     if outcome.static_note:
         levels = dataclasses.replace(levels, notes=(*levels.notes, _STATIC_NOTE))

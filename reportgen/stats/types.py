@@ -104,8 +104,8 @@ class Coefficient:
     term: str  # "const", "trend", "fuel", "d.fuel", "ec(-1)", "d.boxes(-1)"
     estimate: float
     std_error: float
-    t_statistic: float
-    pvalue: float
+    t_statistic: float | None  # None when the standard error is zero (the fit's notes say why)
+    pvalue: float | None
 
 
 @dataclass(frozen=True, slots=True)
@@ -154,7 +154,7 @@ class CointegrationTest:
     variables: tuple[str, ...]  # every integrated variable in the relation
     deterministic: Deterministic
     statistic: float
-    pvalue: float
+    pvalue: float | None  # None beyond the p-value surfaces (more than six variables); a note says so
     pvalue_bound: str | None
     critical_values: dict[str, float]
     critical_values_source: str
@@ -244,6 +244,7 @@ class RegressionAssessment:
     adjustment_speed: float | None = None  # the error-correction coefficient on ec(-1)
     fragile: bool = False  # a variable's order is fragile, or the cointegration tests disagree
     fragile_reason: str | None = None
+    warnings: tuple[str, ...] = ()  # library warnings raised during the assessment, "Category: message"
 
 
 @dataclass(frozen=True, slots=True)

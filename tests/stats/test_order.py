@@ -18,6 +18,7 @@ import statsmodels.api as sm
 from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
+from reportgen.errors import ConstantSeriesError
 from reportgen.stats import order as order_module
 from reportgen.stats.order import (
     DECISION_RULE,
@@ -153,14 +154,23 @@ def test_too_few_observations_gives_no_order_with_the_numbers() -> None:
     assert verdict.nobs == 21
 
 
-def test_constant_series_gives_no_order_with_reason() -> None:
-    verdict = integration_order("flat", as_series(np.full(40, 2.0)), StatsSettings())
+def test_constant_series_is_refused_before_any_test() -> None:
+    with pytest.raises(ConstantSeriesError) as caught:
+        integration_order("flat", as_series(np.full(40, 2.0)), StatsSettings())
+    assert caught.value.message == "series 'flat' is constant (2 at every period)"
+    assert caught.value.code == "constant-series"
+
+
+def test_exact_straight_line_gives_no_order_with_reason() -> None:
+    # An exact straight line varies in levels, but the ADF regression has nothing to fit: its lagged
+    # level is the constant plus the trend. The refusal is a reason, never a meaningless statistic.
+    verdict = integration_order("line", as_series(3.0 + 0.5 * np.arange(40.0)), StatsSettings(), grid=False)
     assert verdict.order is None
-    assert verdict.reason == "ADF cannot be run: the series is constant at level 0"
-    assert verdict.trail == (
-        "Level 0 (flat): ADF cannot be run: the series is constant at level 0; no decision possible.",
-        "Order not determined: ADF cannot be run: the series is constant at level 0.",
+    assert verdict.reason == (
+        "ADF cannot be run: the lagged series is collinear with the deterministic terms and lagged "
+        "differences at level 0"
     )
+    assert verdict.tests == ()
 
 
 def test_fixed_terms_skip_the_rule_but_a_constant_still_gets_the_second_vote() -> None:
