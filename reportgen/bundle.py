@@ -38,6 +38,7 @@ from typing import Any
 from reportgen.errors import BundleInputError, Location, NotABundleError
 from reportgen.manifest import Manifest
 from reportgen.provenance import checksums_text, environment_lock, parse_checksums, sha256_bytes
+from reportgen.sources import resolve_data_path
 
 #: The bundle's own description, and how to recognise a reportgen bundle.
 INDEX_ENTRY = "bundle.json"
@@ -122,8 +123,9 @@ def check_bundle_inputs(manifest: Manifest) -> None:
     """Refuse, before any analysis, a data path that a bundle cannot hold; the error points at the manifest line."""
     inputs: list[dict[str, Any]] = [{"role": "manifest", "name": "manifest", "path": str(manifest.path),
                                      "relative_path": manifest.path.name}]
-    inputs += [{"role": "data", "name": name, "path": str((manifest.base_dir / spec.path).resolve()),
-                "relative_path": spec.path} for name, spec in manifest.spec.datasets.items()]
+    inputs += [{"role": "data", "name": name, "relative_path": spec.path,
+                "path": str(resolve_data_path(manifest.base_dir, spec.path, manifest.locate("datasets", name, "path")))}
+               for name, spec in manifest.spec.datasets.items()]
     try:
         snapshot_entries(inputs)
     except BundleInputError as error:

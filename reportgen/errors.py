@@ -469,6 +469,14 @@ class ConstantSeriesError(DataError):
     fix = "remove the series or choose another column; a constant has no order of integration to test"
 
 
+class SeriesScaleError(DataError):
+    """A series in units so large or so small that squaring its values leaves the range of floating point."""
+
+    code = "series-scale"
+    template = "series '{series}' reaches {largest} in magnitude, outside the range reportgen computes with ({limit})"
+    fix = "rescale the column (divide or multiply it by a power of ten); the statistics do not depend on the units"
+
+
 class SeriesTooShortError(InsufficientDataError):
     """A series with fewer observations than the unit-root battery needs."""
 
@@ -520,6 +528,14 @@ class TransformExhaustsError(TransformError):
     code = "transform-exhausts"
     template = "after '{step}' no observations are left"
     fix = "the series is too short for this transform chain"
+
+
+class TransformOverflowError(TransformError):
+    """A transform whose result is no longer a finite number (differences of values near 1e308)."""
+
+    code = "transform-overflow"
+    template = "after '{step}' the series is not a finite number at {period} ({count} period(s) in all)"
+    fix = "rescale the column (e.g. divide it by a power of ten) before this transform"
 
 
 class NoSeasonError(TransformError):

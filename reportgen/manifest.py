@@ -58,7 +58,9 @@ from reportgen.vocabulary import (
 KeyPath = tuple[str | int, ...]
 #: The longest lag, difference or season a transform step may take.
 _LONGEST_STEP = 1000
-_NAME = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
+_NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*")
+#: Names of the terms reportgen adds to regressions, which a series may not take.
+RESERVED_NAMES = frozenset({"const", "trend"})
 _BOOL_TAG = "tag:yaml.org,2002:bool"
 _STRICT_BOOL = re.compile(r"^(?:true|True|TRUE|false|False|FALSE)$")
 
@@ -218,7 +220,7 @@ def _construct(loader: _StrictLoader, node: yaml.Node, path: KeyPath, positions:
                 raise YamlUnsupportedError(location=where, feature="YAML merge keys ('<<')",
                                            remedy="write the keys out in full")
             _refuse_tag(key_node, file)
-            key = loader.construct_object(key_node, deep=True)
+            key = _scalar(loader, key_node, file)
             if not isinstance(key, str):
                 raise YamlUnsupportedError(location=where, feature=f"a key that is not text ({key!r})",
                                            remedy="quote the key or rename it")
@@ -234,7 +236,18 @@ def _construct(loader: _StrictLoader, node: yaml.Node, path: KeyPath, positions:
             positions[(*path, index)] = (item.start_mark.line + 1, item.start_mark.column + 1)
             items.append(_construct(loader, item, (*path, index), positions, file, seen))
         return items
-    return loader.construct_object(node, deep=True)
+    return _scalar(loader, node, file)
+
+
+def _scalar(loader: _StrictLoader, node: yaml.Node, file: Path) -> Any:
+    """A scalar's value; PyYAML's constructors raise plain exceptions for '0b_' or '!!int abc'."""
+    try:
+        return loader.construct_object(node, deep=True)
+    except (ValueError, TypeError, IndexError, KeyError, OverflowError) as error:
+        mark = node.start_mark
+        raise YamlSyntaxError(location=Location(file, mark.line + 1, mark.column + 1),
+                              problem=f"cannot read the value {str(node.value)[:40]!r} ({type(error).__name__}: "
+                                      f"{error})") from None
 
 
 def _byte_position(raw: bytes, offset: int) -> tuple[int, int]:
@@ -310,6 +323,9 @@ def _schema_error(item: Mapping[str, Any], loc: KeyPath, where: Location) -> Man
     got = item.get("input")
     if kind == "missing":
         return MissingKeyError(location=where)
+    if got is None and kind.endswith("_type"):
+        return WrongTypeError(location=where, expected="a value", got="nothing",
+                              remedy="write the value after the colon, or remove the key")
     if kind in {"literal_error", "enum"}:
         expected = str(context.get("expected", ""))
         options = [part.strip(" '") for part in expected.replace(" or ", ", ").split(",") if part.strip(" '")]
@@ -409,8 +425,13 @@ def _check_names(spec: ManifestSpec, manifest_path: Path, locate: Any) -> list[M
     problems: list[ManifestError] = []
     for section in ("datasets", "series", "regressions"):
         for name in getattr(spec, section):
-            if not _NAME.match(name):
+            if not _NAME.fullmatch(name):
                 problems.append(BadNameError(location=locate(section, name), name=name))
+            elif section == "series" and name in RESERVED_NAMES:
+                problems.append(BadNameError(
+                    location=locate(section, name), name=name,
+                    hint=f"'{name}' names a term reportgen adds to every regression; give the series another "
+                         "name"))
     return problems
 
 

@@ -13,7 +13,7 @@ def period_label(period: pd.Period) -> str:
     """
     freqstr = period.freqstr.upper()
     if freqstr.startswith("W"):
-        return period.end_time.strftime("%Y-%m-%d")
+        return str(period.asfreq("D", how="end"))  # zero-padded, and valid beyond the year 9999
     return str(period)
 
 

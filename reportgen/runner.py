@@ -10,6 +10,7 @@ next run can remove what a killed run left (see :func:`remove_stale_staging`).
 from __future__ import annotations
 
 import ctypes
+import dataclasses
 import errno
 import json
 import os
@@ -27,6 +28,7 @@ import pandas as pd
 
 from reportgen import __version__
 from reportgen.errors import (
+    ConstantSeriesError,
     DataError,
     InsufficientDataError,
     Location,
@@ -38,13 +40,15 @@ from reportgen.errors import (
     OutputUnwritableError,
     SampleBoundError,
     SampleTooShortError,
+    SeriesScaleError,
     SeriesTooShortError,
 )
 from reportgen.manifest import Manifest, load_manifest
 from reportgen.periods import index_labels, period_label
 from reportgen.provenance import build_time, checksums_text, document_run_id, environment, run_id, sha256_bytes
 from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dumps, results_to_dict
-from reportgen.sources import Column, Table, canonical_table_hash, parse_period, read_table
+from reportgen.sources import Column, Table, canonical_table_hash, parse_period, read_table, resolve_data_path
+from reportgen.stats.checks import check_magnitude, check_variation
 from reportgen.stats.methods import methods_text
 from reportgen.stats.order import integration_order
 from reportgen.stats.regression import assess_regression
@@ -93,7 +97,7 @@ def load_tables(manifest: Manifest) -> dict[str, Table]:
     """Read every dataset the manifest declares (in manifest order)."""
     tables: dict[str, Table] = {}
     for name, spec in manifest.spec.datasets.items():
-        path = (manifest.base_dir / spec.path).resolve()
+        path = resolve_data_path(manifest.base_dir, spec.path, manifest.locate("datasets", name, "path"))
         tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
                                   manifest.locate("datasets", name, "path"),
                                   manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort,
@@ -214,6 +218,11 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
         values, lineage, notes = item.values, item.lineage, item.notes
         progress(f"order of integration {position}/{len(built)}: {name}")
         spec = manifest.spec.series[name]
+        try:
+            check_magnitude(name, values)
+            check_variation(name, values)
+        except (ConstantSeriesError, SeriesScaleError) as error:
+            raise type(error)(error.message, location=manifest.locate("series", name), hint=error.hint) from None
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
             verdict = integration_order(name, values, settings, spec.deterministic)
@@ -243,12 +252,17 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
             assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders, reason)
             continue
         try:
-            with warnings.catch_warnings(record=True):
+            with warnings.catch_warnings(record=True) as caught:
                 warnings.simplefilter("always")
                 fragile = {variable: records[variable].verdict.fragile_reason or "fragile order"
                            for variable in formula.variables if records[variable].verdict.fragile}
-                assessments[name] = assess_regression(name, formula.text, formula.dependent, formula.regressors,
-                                                      data, orders, settings, fragile_orders=fragile)
+                assessment = assess_regression(name, formula.text, formula.dependent, formula.regressors,
+                                               data, orders, settings, fragile_orders=fragile)
+            escaped = tuple(f"{w.category.__name__}: {w.message}" for w in caught)
+            if escaped:  # assess_regression keeps its own; anything else is kept here rather than lost
+                assessment = dataclasses.replace(
+                    assessment, warnings=tuple(dict.fromkeys((*assessment.warnings, *escaped))))
+            assessments[name] = assessment
         except InsufficientDataError as error:
             if policy == "error":
                 raise SampleTooShortError(location=manifest.locate("regressions", name), problem=error.message,

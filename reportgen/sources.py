@@ -49,10 +49,10 @@ from reportgen.periods import period_label
 
 _PANDAS_FREQ = {"annual": "Y", "quarterly": "Q", "monthly": "M", "weekly": "W-SUN", "daily": "D"}
 _PATTERNS: tuple[tuple[str, re.Pattern[str]], ...] = (
-    ("annual", re.compile(r"^(\d{4})$")),
-    ("quarterly", re.compile(r"^(\d{4})-?[Qq]([1-4])$")),
-    ("monthly", re.compile(r"^(\d{4})-(\d{1,2})$")),
-    ("date", re.compile(r"^(\d{4})-(\d{1,2})-(\d{1,2})$")),
+    ("annual", re.compile(r"(\d{4})", re.ASCII)),
+    ("quarterly", re.compile(r"(\d{4})-?[Qq]([1-4])", re.ASCII)),
+    ("monthly", re.compile(r"(\d{4})-(\d{1,2})", re.ASCII)),
+    ("date", re.compile(r"(\d{4})-(\d{1,2})-(\d{1,2})", re.ASCII)),
 )
 _MISSING = {"", "na", "n/a", "nan", "null", "none", "-", "."}
 #: How many offending rows an error message lists before summarising.
@@ -122,7 +122,9 @@ class Table:
             if stripped.lower() in _MISSING:
                 continue
             try:
-                # Python's float() accepts "1_000"; a data cell with an underscore is not a number.
+                # Python's float() accepts "1_000" and digits of any script; a data cell is ASCII text.
+                if not stripped.isascii():
+                    raise ValueError(stripped)
                 number = float(stripped.replace("_", "x"))
             except ValueError:
                 bad.append(f"line {self.lines[position]} ({period_label(self.periods[position])}): {text!r}")
@@ -173,7 +175,7 @@ def _listing(items: list[str]) -> str:
 def _date_kind(text: str) -> tuple[str, tuple[int, ...]] | None:
     """The form of a date label and its parts, or None when it is not a valid date."""
     for kind, pattern in _PATTERNS:
-        match = pattern.match(text.strip())
+        match = pattern.fullmatch(text.strip())
         if match:
             parts = tuple(int(group) for group in match.groups())
             if kind in {"monthly", "date"} and not 1 <= parts[1] <= 12:
@@ -368,6 +370,15 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
                  frequency=frequency, frequency_source="declared" if declared else "inferred", periods=index,
                  lines=tuple(row_lines), cells={column: tuple(texts) for column, texts in cells.items()},
                  notes=tuple(notes), missing=missing, inserted=tuple(inserted))
+
+
+def resolve_data_path(base_dir: Path, relative: str, where: Location) -> Path:
+    """A dataset's path made absolute with links followed; an impossible path is a catalogue error."""
+    try:
+        return (base_dir / relative).resolve()
+    except (OSError, RuntimeError, ValueError) as error:  # a NUL byte, a loop of links (RuntimeError on 3.11)
+        raise DataUnreadableError(location=where, file=relative, reason=str(error) or type(error).__name__,
+                                  hint="check the dataset's path and any links on the way") from None
 
 
 def canonical_table_hash(table: Table, columns: Iterable[str] | None = None) -> str:

@@ -14,7 +14,13 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from reportgen.errors import Location, NonPositiveValuesError, NoSeasonError, TransformExhaustsError
+from reportgen.errors import (
+    Location,
+    NonPositiveValuesError,
+    NoSeasonError,
+    TransformExhaustsError,
+    TransformOverflowError,
+)
 from reportgen.periods import period_label
 from reportgen.vocabulary import PERIODS_PER_YEAR
 
@@ -99,4 +105,8 @@ def apply_transforms(values: pd.Series, steps: Sequence[Step], frequency: str, w
         result = _STEPS[step.name](result, step.parameter, frequency, where)
         if result.empty:
             raise TransformExhaustsError(location=where, step=step.name)
+        infinite = result[~np.isfinite(result.to_numpy())]
+        if len(infinite):
+            raise TransformOverflowError(location=where, step=step.name, period=period_label(infinite.index[0]),
+                                         count=len(infinite))
     return result.rename(values.name)

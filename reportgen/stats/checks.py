@@ -15,13 +15,43 @@ from typing import Final
 import numpy as np
 import pandas as pd
 
-from reportgen.errors import ConstantSeriesError
+from reportgen.errors import ConstantSeriesError, SeriesScaleError
 
-__all__ = ["VARIATION_LIMIT", "check_variation", "relative_spread", "varying_digit"]
+__all__ = ["MAGNITUDE_LIMIT", "VARIATION_LIMIT", "check_magnitude", "check_variation", "relative_spread",
+           "varying_digit"]
 
 #: A spread of at most this share of the largest magnitude counts as no variation (see
 #: :func:`check_variation` for why 1e-10).
 VARIATION_LIMIT: Final[float] = 1e-10
+
+
+#: Values must lie within 1e-100 to 1e100 in magnitude (see :func:`check_magnitude`).
+MAGNITUDE_LIMIT: Final[float] = 1e100
+
+
+def check_magnitude(name: str, values: pd.Series) -> None:
+    """Refuse a series whose values are beyond 1e100 or (apart from zeros) all below 1e-100 in magnitude.
+
+    The tests square and multiply the values (cross-products of least squares, long-run
+    variances); float64 stops at about 1.8e308 and, gradually, at 2.2e-308, so squares of numbers
+    near 1e200 overflow and squares of numbers near 1e-200 vanish. The statistics themselves do not
+    depend on the units, so the fix is to rescale the column; the limit leaves a margin of 1e100 in
+    both directions for the squares. Values of economic or financial data, whatever their units,
+    lie far inside it.
+
+    Raises
+    ------
+    SeriesScaleError
+        Naming the largest magnitude found and the limit.
+    """
+    array = np.abs(np.asarray(values, dtype=float).ravel())
+    array = array[np.isfinite(array) & (array > 0)]
+    if array.size == 0:
+        return
+    largest = float(np.max(array))
+    if largest > MAGNITUDE_LIMIT or largest < 1.0 / MAGNITUDE_LIMIT:
+        raise SeriesScaleError(series=name, largest=f"{largest:.3g}", limit=f"{1.0 / MAGNITUDE_LIMIT:g} to "
+                                                                           f"{MAGNITUDE_LIMIT:g}")
 
 
 def relative_spread(values: np.ndarray | pd.Series) -> float:

@@ -234,11 +234,22 @@ def _format_pvalue(pvalue: float | None, bound: str | None = None) -> str:
     return f"p {bound} {text}" if bound else f"p = {text}"
 
 
+def _unit_columns(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each column divided by its Euclidean norm, and the norms (0 for an all-zero column).
+
+    The column is first divided by its largest magnitude, so the norm neither overflows for values
+    near 1e200 nor underflows for values near 1e-200.
+    """
+    largest = np.max(np.abs(values), axis=0)
+    shrunk = values / np.where(largest > 0, largest, 1.0)
+    relative = np.linalg.norm(shrunk, axis=0)  # between 1 and sqrt(rows) for a column that is not all zero
+    return shrunk / np.where(relative > 0, relative, 1.0), relative * largest
+
+
 def _collinearity(design: pd.DataFrame) -> tuple[str, tuple[str, ...]] | None:
     """The first column of ``design`` that is an exact linear combination of the ones before it."""
     values = design.to_numpy(dtype=float)
-    norms = np.linalg.norm(values, axis=0)
-    scaled = values / np.where(norms > 0, norms, 1.0)
+    scaled, norms = _unit_columns(values)
     names = list(design.columns)
     if np.all(norms > 0) and np.linalg.matrix_rank(scaled) == scaled.shape[1]:
         return None
@@ -261,7 +272,7 @@ def _near_collinear(design: pd.DataFrame) -> tuple[float, tuple[str, ...]] | Non
     singular vector of the smallest singular value: the near-dependence among them.
     """
     values = design.to_numpy(dtype=float)
-    scaled = values / np.linalg.norm(values, axis=0)
+    scaled, _ = _unit_columns(values)
     _, singular_values, right = np.linalg.svd(scaled, full_matrices=False)
     condition = math.inf if singular_values[-1] == 0 else float(singular_values[0] / singular_values[-1])
     if condition <= CONDITION_NUMBER_LIMIT:

@@ -81,20 +81,7 @@ class KnownBug:
 
 _UNCODED = "test_statistics_refusals_are_catalogue_errors"
 #: Bugs found by the fuzz properties and not fixed yet (reproducers in test_found.py).
-KNOWN_BUGS: tuple[KnownBug, ...] = (
-    KnownBug("test_yaml_scalar_pyyaml_cannot_construct_is_a_catalogue_error", ("ValueError", "IndexError", "KeyError"),
-             ("in read_yaml", "yaml/constructor.py")),
-    KnownBug("test_nul_byte_in_a_data_path_is_a_catalogue_error", ("ValueError",), ("in load_tables", "null byte")),
-    KnownBug("test_data_path_that_is_a_symlink_loop_is_a_catalogue_error", ("RuntimeError",),
-             ("in load_tables", "Symlink loop")),
-    KnownBug("test_weekly_period_ending_after_9999_is_labelled", ("NotImplementedError",), ("in period_label",)),
-    KnownBug("test_a_series_named_const_is_analysed", ("ValueError",), ("in _with_constant", "const")),
-    KnownBug(_UNCODED, (), ("perfectly collinear",), "uncoded"),
-    KnownBug(_UNCODED, (), ("nearly collinear",), "uncoded"),
-    KnownBug(_UNCODED, (), ("is constant over the sample",), "uncoded"),
-    KnownBug(_UNCODED, (), ("fits exactly",), "uncoded"),
-    KnownBug(_UNCODED, (), ("missing or infinite values",), "uncoded"),
-)
+KNOWN_BUGS: tuple[KnownBug, ...] = ()
 
 
 def known_bug(text: str, kind: str = "crash") -> KnownBug | None:
