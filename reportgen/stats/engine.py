@@ -68,7 +68,7 @@ import scipy.linalg
 import scipy.special
 from statsmodels.tsa.adfvalues import _tau_largeps, _tau_maxs, _tau_mins, _tau_smallps, _tau_stars, tau_2010s
 
-from reportgen.stats.numerics import _by_qr, _column_scaled, nested_least_squares
+from reportgen.stats.numerics import _by_qr, _column_scaled, nested_least_squares, single_threaded_blas
 
 __all__ = [
     "CRITERIA",
@@ -199,10 +199,9 @@ class _Factor:
 def _gram_layout(lags: int) -> tuple[np.ndarray, ...]:
     """Index arrays that place the lag-distance sums into the Gram matrix of :func:`_regression_gram`.
 
-    Pair ``(i, j = i + h)`` of lags (lag 0 is the response, column ``lags + 1``; lag ``j >= 1`` is
-    column ``j``) is base sum ``h`` corrected by the ``i`` products at each end of the window.
+    Pair ``(i, j = i + h)`` of lags (lag 0 is the response) is base sum ``h`` corrected by the ``i``
+    products at each end of the window; lag ``j`` is column ``1 + j``, the lagged level column 0.
     """
-    response = lags + 1
     distances, shifts = [], []
     for distance in range(lags + 1):
         for shift in range(lags - distance + 1):
@@ -210,11 +209,10 @@ def _gram_layout(lags: int) -> tuple[np.ndarray, ...]:
             shifts.append(shift)
     distance_index = np.asarray(distances, dtype=np.intp)
     shift_index = np.asarray(shifts, dtype=np.intp)
-    first = np.where(shift_index == 0, response, shift_index)
-    second = np.where(shift_index + distance_index == 0, response, shift_index + distance_index)
     corrected = shift_index > 0
+    position = np.maximum(shift_index - 1, 0)
     upper = np.triu(np.ones((lags, lags), dtype=bool))
-    return distance_index, shift_index, first, second, corrected, upper
+    return distance_index, corrected, position, 1 + shift_index, 1 + shift_index + distance_index, upper
 
 
 def _end_sums(values: np.ndarray, start: int, end: int, lags: int) -> tuple[np.ndarray, np.ndarray]:
@@ -228,9 +226,10 @@ def _end_sums(values: np.ndarray, start: int, end: int, lags: int) -> tuple[np.n
 
 
 def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int) -> tuple[np.ndarray, np.ndarray]:
-    """Cross products of ``[y_s, dy_{s-1}, .., dy_{s-lags}, dy_s]`` over ``s = start .. T-2``.
+    """Cross products of ``[y_s, dy_s, dy_{s-1}, .., dy_{s-lags}]`` over ``s = start .. T-2``.
 
-    ``levels`` are already centred or detrended (:func:`_remove_terms`); ``start >= lags``. The
+    Column 0 is the lagged level, column ``1 + j`` the difference at lag ``j`` (lag 0, column 1, is the
+    response). ``levels`` are already centred or detrended (:func:`_remove_terms`); ``start >= lags``. The
     deterministic terms of ``trend_count`` (a constant; a constant and the trend ``1..n``) are removed
     from every cross product analytically. Returns the Gram matrix after that removal and its
     diagonal before it.
@@ -247,13 +246,11 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     end = length - 1  # one past the last regression row
     nobs = end - start
     size = lags + 2
-    response = lags + 1
-    distance_index, shift_index, first, second, corrected, upper = _gram_layout(lags)
+    distance_index, corrected, position, first, second, upper = _gram_layout(lags)
 
     window = differences[:, start:end]
-    base = np.empty((rows, lags + 1))
-    for distance in range(lags + 1):
-        base[:, distance] = _rowdot(differences[:, start - distance : end - distance], window)
+    view = np.lib.stride_tricks.sliding_window_view(differences, nobs, axis=1)  # view[:, t] = dy[t : t + n]
+    base = np.einsum("rhs,rs->rh", view[:, start - lags : start + 1][:, ::-1], window)  # sum_s dy_s dy_{s-h}
     values = base[:, distance_index]
     if lags:
         # D_h(v) = dy_{v-h} dy_v for the last `lags` rows before the start and before the end of the
@@ -264,8 +261,7 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
         tail = differences[:, np.arange(end - lags, end)[:, None] - offsets]
         ends = head * head[:, :, :1] - tail * tail[:, :, :1]  # [v, h]
         ends = np.cumsum(ends[:, ::-1], axis=1)  # [k - 1, h]: the last k rows
-        correction = ends[:, np.maximum(shift_index - 1, 0), distance_index]
-        values = values + np.where(corrected, correction, 0.0)
+        values = values + np.where(corrected, ends[:, position, distance_index], 0.0)
     gram = np.empty((rows, size, size))
     gram[:, first, second] = values
     gram[:, second, first] = values
@@ -275,16 +271,13 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     gram[:, 0, 0] = _rowdot(level, level)
     products = levels[:, :end] * differences
     own = products[:, start:end].sum(axis=1)
-    head_own, tail_own = _end_sums(products, start, end, lags)
     cross = np.empty((rows, lags + 1))
     cross[:, 0] = own
     if lags:
-        block = gram[:, 1:response, 1:response]
-        cross[:, 1:] = own[:, None] + head_own - tail_own + np.where(upper, block, 0.0).sum(axis=1)
-    gram[:, 0, 1:response] = cross[:, 1:]
-    gram[:, 1:response, 0] = cross[:, 1:]
-    gram[:, 0, response] = cross[:, 0]
-    gram[:, response, 0] = cross[:, 0]
+        head_own, tail_own = _end_sums(products, start, end, lags)
+        cross[:, 1:] = own[:, None] + head_own - tail_own + np.where(upper, gram[:, 2:, 2:], 0.0).sum(axis=1)
+    gram[:, 0, 1:] = cross
+    gram[:, 1:, 0] = cross
     raw_diagonal = np.diagonal(gram, axis1=1, axis2=2).copy()
     if trend_count == 0:
         return gram, raw_diagonal
@@ -293,20 +286,17 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     # with r = 1..n (summation by parts); the level's directly.
     lag_numbers = np.arange(lags + 1)
     level_sum = level.sum(axis=1)
-    head_level, tail_level = _end_sums(levels, start, end, lags)
-    shifted_level_sums = np.empty((rows, lags + 1))  # sum of y over s - j in the window, j = 0..lags
-    shifted_level_sums[:, 0] = level_sum
-    shifted_level_sums[:, 1:] = level_sum[:, None] + head_level - tail_level
     sums = np.empty((rows, size))
     weighted = np.empty((rows, size))
     sums[:, 0] = level_sum
+    sums[:, 1:] = levels[:, end - lag_numbers] - levels[:, start - lag_numbers]
+    shifted_level_sums = np.empty((rows, lags + 1))  # sum of y_{s-j} over the window, j = 0..lags
+    shifted_level_sums[:, 0] = level_sum
+    if lags:
+        head_level, tail_level = _end_sums(levels, start, end, lags)
+        shifted_level_sums[:, 1:] = level_sum[:, None] + head_level - tail_level
     weighted[:, 0] = np.einsum("ij,j->i", level, np.arange(1.0, nobs + 1.0))
-    difference_sums = levels[:, end - lag_numbers] - levels[:, start - lag_numbers]
-    difference_weighted = nobs * levels[:, end - lag_numbers] - shifted_level_sums
-    sums[:, response] = difference_sums[:, 0]
-    weighted[:, response] = difference_weighted[:, 0]
-    sums[:, 1:response] = difference_sums[:, 1:]
-    weighted[:, 1:response] = difference_weighted[:, 1:]
+    weighted[:, 1:] = nobs * levels[:, end - lag_numbers] - shifted_level_sums
     constant_part = sums / math.sqrt(nobs)
     gram -= constant_part[:, :, None] * constant_part[:, None, :]
     if trend_count == 2:
@@ -435,7 +425,7 @@ def adf_lags(levels: np.ndarray, max_lags: int, trend_count: int,
     if largest < 0:
         raise ValueError(f"{length} observations are too few for an ADF regression with {max_lags} lags")
     gram, raw = _regression_gram(_shifted_rows(levels, trend_count), max_lags, max_lags, trend_count)
-    factor = _factor(gram, raw, range(max_lags + 2))
+    factor = _factor(gram, raw, [0, *range(2, max_lags + 2), 1])  # level, lags 1..max, response
     projections = factor.lower[:, -1, :-1]
     residual_share = factor.lower[:, -1, -1] ** 2
     beyond = np.cumsum((projections**2)[:, ::-1], axis=1)[:, ::-1]
@@ -460,17 +450,18 @@ def adf_lags(levels: np.ndarray, max_lags: int, trend_count: int,
 
 
 def _original_lengths(levels: np.ndarray, start: int, lags: int) -> np.ndarray:
-    """Squared lengths of ``[y_s, dy_{s-1}, .., dy_{s-lags}, dy_s]`` over ``s = start .. T-2`` as given
-    (not centred): the scale on which the refusals are judged."""
+    """Squared lengths of ``[y_s, dy_s, dy_{s-1}, .., dy_{s-lags}]`` over ``s = start .. T-2`` as given
+    (not centred; the columns of :func:`_regression_gram`): the scale on which the refusals are judged."""
     end = levels.shape[1] - 1
     level = levels[:, start:end]
     squares = np.diff(levels, axis=1) ** 2
     response = squares[:, start:end].sum(axis=1)
-    head, tail = _end_sums(squares, start, end, lags)
     lengths = np.empty((levels.shape[0], lags + 2))
     lengths[:, 0] = _rowdot(level, level)
-    lengths[:, 1 : lags + 1] = response[:, None] + head - tail
-    lengths[:, lags + 1] = response
+    lengths[:, 1] = response
+    if lags:
+        head, tail = _end_sums(squares, start, end, lags)
+        lengths[:, 2:] = response[:, None] + head - tail
     return lengths
 
 
@@ -502,7 +493,7 @@ def dickey_fuller_statistics(levels: np.ndarray, lags: np.ndarray | int, trend_c
         nobs = length - 1 - lag
         freedom = nobs - trend_count - lag - 1
         gram, raw = _regression_gram(shifted[members], lag, lag, trend_count)
-        order = [*range(1, lag + 1), 0, lag + 1]  # lagged differences, the level, the response
+        order = [*range(2, lag + 2), 0, 1]  # lagged differences, the level, the response
         factor = _factor(gram, raw, order)
         residual_share = factor.lower[:, -1, -1] ** 2
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -560,11 +551,22 @@ def mackinnon_critical_values(regression: str, nobs: int) -> tuple[float, float,
 # --- long-run variances -------------------------------------------------------------------------------
 
 
-def _autocovariance_sums(residuals: np.ndarray, lags: int) -> np.ndarray:
-    """``sum_t u_t u_{t-j}`` for ``j = 0 .. lags`` of one row, directly or (many lags) by FFT."""
+def _autocovariances(residuals: np.ndarray, lags: int) -> np.ndarray:
+    """``sum_t u_t u_{t-j}`` for ``j = 0 .. lags`` of every row, ``(rows, lags + 1)``.
+
+    Each sum is one reduction over a zero-padded window of the row's own length, so a row's sums
+    do not depend on the other rows or on how many lags are asked for.
+    """
+    rows, nobs = residuals.shape
+    padded = np.zeros((rows, nobs + lags))
+    padded[:, :nobs] = residuals
+    view = np.lib.stride_tricks.sliding_window_view(padded, nobs, axis=1)[:, : lags + 1]
+    return np.einsum("rjs,rs->rj", view, residuals)
+
+
+def _fft_autocovariances(residuals: np.ndarray, lags: int) -> np.ndarray:
+    """The same sums for one row by a zero-padded FFT (``O(T log T)``, for many lags)."""
     nobs = residuals.size
-    if lags <= DIRECT_AUTOCOVARIANCE_LAGS:
-        return np.array([residuals[lag:] @ residuals[: nobs - lag] for lag in range(lags + 1)])
     size = scipy.fft.next_fast_len(2 * nobs, real=True)
     spectrum = scipy.fft.rfft(residuals, size)
     return scipy.fft.irfft(spectrum.real**2 + spectrum.imag**2, size)[: lags + 1]
@@ -573,29 +575,36 @@ def _autocovariance_sums(residuals: np.ndarray, lags: int) -> np.ndarray:
 def bartlett_long_run_variance(residuals: np.ndarray, bandwidths: np.ndarray | int) -> np.ndarray:
     """``(gamma_0 + 2 sum_{j=1..L} (1 - j/(L+1)) gamma_j) / T`` per row, each with its own bandwidth ``L``.
 
-    The autocovariance sums are not divided by ``T`` until the end (statsmodels' ``_sigma_est_kpss``
-    and arch's ``cov_nw`` give the same number).
+    The autocovariance sums are divided by ``T`` at the end (statsmodels' ``_sigma_est_kpss`` and
+    arch's ``cov_nw`` give the same number). Up to :data:`DIRECT_AUTOCOVARIANCE_LAGS` lags they are
+    summed directly (``O(T L)``), beyond by FFT.
     """
     residuals = np.atleast_2d(residuals)
     rows, nobs = residuals.shape
     bandwidths = np.broadcast_to(np.asarray(bandwidths, dtype=int), (rows,))
-    result = _rowdot(residuals, residuals)
+    result = np.empty(rows)
     direct = bandwidths <= DIRECT_AUTOCOVARIANCE_LAGS
-    most = int(bandwidths[direct].max(initial=0))
-    for lag in range(1, most + 1):
-        active = np.flatnonzero(direct & (bandwidths >= lag))
-        if active.size == rows:
-            products = _rowdot(residuals[:, lag:], residuals[:, : nobs - lag])
-            result = result + 2.0 * (1.0 - lag / (bandwidths + 1.0)) * products
-        else:
-            part = residuals[active]
-            products = _rowdot(part[:, lag:], part[:, : nobs - lag])
-            result[active] = result[active] + 2.0 * (1.0 - lag / (bandwidths[active] + 1.0)) * products
+    # Rows grouped by bandwidth (up to 8, 16, .. lags) so that few lags cost little; a row's numbers
+    # do not depend on its group.
+    group = np.where(direct, np.ceil(np.log2(np.maximum(bandwidths, 8))).astype(int), -1)
+    for size in np.unique(group[direct]):
+        members = np.flatnonzero(group == size)
+        part = residuals[members] if members.size < rows else residuals
+        widths = bandwidths[members]
+        most = int(widths.max())
+        sums = _autocovariances(part, most)
+        values = sums[:, 0].copy()
+        for lag in range(1, most + 1):  # in order of lag, row by row: adding 0 beyond a row's bandwidth
+            weight = np.where(widths >= lag, 1.0 - lag / (widths + 1.0), 0.0)
+            values += 2.0 * weight * sums[:, lag]
+        result[members] = values
     for row in np.flatnonzero(~direct):
         bandwidth = int(bandwidths[row])
-        sums = _autocovariance_sums(residuals[row], bandwidth)
-        weights = 1.0 - np.arange(1, bandwidth + 1) / (bandwidth + 1.0)
-        result[row] = sums[0] + 2.0 * float(weights @ sums[1:])
+        row_sums = _fft_autocovariances(residuals[row], bandwidth)
+        value = float(row_sums[0])
+        for lag in range(1, bandwidth + 1):
+            value += 2.0 * (1.0 - lag / (bandwidth + 1.0)) * float(row_sums[lag])
+        result[row] = value
     return result / nobs
 
 
@@ -606,11 +615,9 @@ def newey_west_bandwidths(residuals: np.ndarray) -> np.ndarray:
     ``L = int(1.1447 ((s1/s0)^2)^(1/3) T^(1/3))``, at most ``T - 1`` (and ``T - 1`` when ``s0`` is 0).
     """
     residuals = np.atleast_2d(residuals)
-    rows, nobs = residuals.shape
+    nobs = residuals.shape[1]
     pilot = min(int(4.0 * (nobs / 100.0) ** (2.0 / 9.0)), nobs - 1)
-    autocovariances = np.empty((rows, pilot + 1))
-    for lag in range(pilot + 1):
-        autocovariances[:, lag] = _rowdot(residuals[:, lag:], residuals[:, : nobs - lag])
+    autocovariances = _autocovariances(residuals, pilot)
     s0 = autocovariances[:, 0] + 2.0 * autocovariances[:, 1:].sum(axis=1)
     s1 = 2.0 * (np.arange(1.0, pilot + 1.0) * autocovariances[:, 1:]).sum(axis=1)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -687,11 +694,12 @@ def phillips_perron_arrays(levels: np.ndarray, trend_count: int,
 def _hobijn_bandwidths(residuals: np.ndarray) -> np.ndarray:
     """Hobijn, Franses and Ooms' (1998) automatic KPSS bandwidth per row, as statsmodels' ``_kpss_autolag``."""
     rows, nobs = residuals.shape
-    pilot = int(np.power(nobs, 2.0 / 9.0))
-    s0 = (residuals**2).sum(axis=1) / nobs
+    pilot = min(int(np.power(nobs, 2.0 / 9.0)), nobs - 1)
+    autocovariances = _autocovariances(residuals, pilot)
+    s0 = autocovariances[:, 0] / nobs
     s1 = np.zeros(rows)
     for lag in range(1, pilot + 1):
-        products = _rowdot(residuals[:, lag:], residuals[:, : nobs - lag]) / (nobs / 2.0)
+        products = autocovariances[:, lag] / (nobs / 2.0)
         s0 = s0 + products
         s1 = s1 + lag * products
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -817,6 +825,7 @@ def battery(values: np.ndarray, *, max_order: int = 2, terms: Sequence[str] = ("
     criterion, the Phillips-Perron bandwidth by Newey and West (1994), the KPSS bandwidth the short
     rule ``int(4 (T/100)^(1/4))`` (``kpss_lags="auto"``: Hobijn et al. 1998). Each row is divided by
     its largest absolute value first. Statistics of refused rows are NaN with their status code.
+    BLAS runs single-threaded inside (:func:`~reportgen.stats.numerics.single_threaded_blas`).
 
     Parameters
     ----------
@@ -835,7 +844,12 @@ def battery(values: np.ndarray, *, max_order: int = 2, terms: Sequence[str] = ("
     -------
     BatteryArrays
     """
-    values = np.atleast_2d(np.asarray(values, dtype=float))
+    with single_threaded_blas():
+        return _battery(np.atleast_2d(np.asarray(values, dtype=float)), max_order, terms, criteria, kpss_lags)
+
+
+def _battery(values: np.ndarray, max_order: int, terms: Sequence[str], criteria: Sequence[str],
+             kpss_lags: str) -> BatteryArrays:
     tests: dict[tuple[int, str, str, str | None], TestArrays] = {}
     lengths: dict[int, int] = {}
     current = values
