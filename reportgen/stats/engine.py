@@ -110,6 +110,19 @@ DFGLS_CBAR: Final[dict[str, float]] = {"constant": -7.0, "constant-trend": -13.5
 #: is recomputed by Householder QR. Rounding error in the cross products is then at most about
 #: ``1e-16 / FAST_SHARE`` relative.
 FAST_SHARE: Final[float] = 1e-6
+#: Kwiatkowski, Phillips, Schmidt and Shin (1992), Table 1, asymptotic critical values (10% to 1%).
+KPSS_TABLE: Final[dict[str, dict[str, float]]] = {
+    "constant": {"10%": 0.347, "5%": 0.463, "2.5%": 0.574, "1%": 0.739},
+    "constant-trend": {"10%": 0.119, "5%": 0.146, "2.5%": 0.176, "1%": 0.216},
+}
+#: Elliott, Rothenberg and Stock (1996), Table I, DF-GLS with constant and trend (1%, 5%, 10%), by
+#: sample size; ``math.inf`` is the asymptotic row. Transcribed from memory (REFERENCES.md section 6).
+ERS_TREND_TABLE: Final[dict[float, tuple[float, float, float]]] = {
+    50.0: (-3.77, -3.19, -2.89),
+    100.0: (-3.58, -3.03, -2.74),
+    200.0: (-3.46, -2.93, -2.64),
+    math.inf: (-3.48, -2.89, -2.57),
+}
 #: Autocovariances are summed directly up to this many lags, taken from an FFT beyond.
 DIRECT_AUTOCOVARIANCE_LAGS: Final[int] = 128
 
@@ -160,38 +173,46 @@ def _line_basis(length: int) -> tuple[np.ndarray, np.ndarray]:
     return constant, trend / norm
 
 
-def _remove_terms(values: np.ndarray, trend_count: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """The rows minus their least-squares mean (1) or line (2); also the removed line's level and slope.
+@dataclass(frozen=True, slots=True)
+class _Shift:
+    """Rows with their least-squares mean or line removed: ``rows = shifted + offset + slope * x``."""
 
-    The slope is per observation, so the differences of the result are those of the rows less the slope.
+    shifted: np.ndarray
+    offset: np.ndarray
+    slope: np.ndarray
+
+
+def _remove_terms(values: np.ndarray, trend_count: int) -> _Shift:
+    """The rows minus their least-squares mean (1) or line (2), ``x = 0 .. T-1``, and the line removed.
+
+    Differences of the result are those of the rows less the slope. No statistic depends on the
+    shift (the deterministic terms absorb it); it only keeps the cross products well scaled.
     """
     rows, length = values.shape
     zero = np.zeros(rows)
     if trend_count == 0:
-        return values, zero, zero
-    constant, trend = _line_basis(length)
-    mean_part = np.einsum("ij,j->i", values, constant)
-    result = values - mean_part[:, None] * constant
+        return _Shift(values, zero, zero)
+    mean = values.mean(axis=1)
     if trend_count == 1:
-        return result, mean_part * constant[0], zero
-    trend_part = np.einsum("ij,j->i", values, trend)
-    result = result - trend_part[:, None] * trend
-    slope = trend_part * (trend[1] - trend[0]) if length > 1 else zero
-    return result, mean_part * constant[0] + trend_part * trend[0], slope
+        return _Shift(values - mean[:, None], mean, zero)
+    centred = np.arange(length) - (length - 1.0) / 2.0
+    slope = np.einsum("ij,j->i", values, centred) / float(centred @ centred)
+    line = slope[:, None] * centred
+    line += mean[:, None]
+    return _Shift(values - line, mean - slope * ((length - 1.0) / 2.0), slope)
 
 
 @dataclass(frozen=True, slots=True)
 class _Factor:
-    """The Cholesky factor of one block of column-scaled ADF regressions (the deterministic terms removed).
+    """The Cholesky factor of one block of ADF regressions (the deterministic terms removed).
 
     Columns are ordered as the caller asked, the response last. ``lower[:, -1, :-1]`` are the
-    projections ``(Q'y)_j``, ``lower[:, -1, -1]**2`` the full model's residual share of the response;
-    ``response_sum`` the response's squared length after the deterministic terms; ``trusted`` rows
-    whose shares all reach :data:`FAST_SHARE` and whose Cholesky factorisation succeeded.
+    projections ``(Q'y)_j``, ``lower[:, -1, -1]**2`` the full model's residual sum of squares;
+    ``trusted`` the rows whose columns (and response) all keep at least :data:`FAST_SHARE` of their
+    raw squared length and whose factorisation succeeded.
     """
 
     lower: np.ndarray
-    response_sum: np.ndarray
     trusted: np.ndarray
 
 
@@ -200,7 +221,8 @@ def _gram_layout(lags: int) -> tuple[np.ndarray, ...]:
     """Index arrays that place the lag-distance sums into the Gram matrix of :func:`_regression_gram`.
 
     Pair ``(i, j = i + h)`` of lags (lag 0 is the response) is base sum ``h`` corrected by the ``i``
-    products at each end of the window; lag ``j`` is column ``1 + j``, the lagged level column 0.
+    products at each end of the window; lag ``j >= 1`` is column ``j``, the response column
+    ``lags + 1``, the lagged level column 0.
     """
     distances, shifts = [], []
     for distance in range(lags + 1):
@@ -212,7 +234,29 @@ def _gram_layout(lags: int) -> tuple[np.ndarray, ...]:
     corrected = shift_index > 0
     position = np.maximum(shift_index - 1, 0)
     upper = np.triu(np.ones((lags, lags), dtype=bool))
-    return distance_index, corrected, position, 1 + shift_index, 1 + shift_index + distance_index, upper
+    def column(lag: np.ndarray) -> np.ndarray:
+        return np.where(lag == 0, lags + 1, lag)
+
+    return distance_index, corrected, position, column(shift_index), column(shift_index + distance_index), upper
+
+
+@functools.lru_cache(maxsize=1024)
+def _end_indices(start: int, end: int, lags: int) -> tuple[np.ndarray, np.ndarray]:
+    """Positions of ``dy_{v-h}`` for the last ``lags`` rows ``v`` before ``start`` and ``end`` (latest
+    first), ``h = 0 .. lags`` (clipped at 0 where never used)."""
+    offsets = np.arange(lags + 1)
+    head = np.maximum(np.arange(start - 1, start - lags - 1, -1)[:, None] - offsets, 0)
+    tail = np.arange(end - 1, end - lags - 1, -1)[:, None] - offsets
+    return head, tail
+
+
+def _running_sums(values: np.ndarray) -> None:
+    """Cumulative sums along axis 1, in place, adding in order (the bits of ``numpy.cumsum``)."""
+    if values.shape[0] < 64:
+        np.cumsum(values, axis=1, out=values)
+        return
+    for position in range(1, values.shape[1]):
+        values[:, position] += values[:, position - 1]
 
 
 def _end_sums(values: np.ndarray, start: int, end: int, lags: int) -> tuple[np.ndarray, np.ndarray]:
@@ -225,14 +269,34 @@ def _end_sums(values: np.ndarray, start: int, end: int, lags: int) -> tuple[np.n
     return head, tail
 
 
-def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int) -> tuple[np.ndarray, np.ndarray]:
-    """Cross products of ``[y_s, dy_s, dy_{s-1}, .., dy_{s-lags}]`` over ``s = start .. T-2``.
+#: Rows per block of :func:`_regression_gram`: its temporaries stay small (in cache, and reused by
+#: the allocator instead of being mapped afresh). A row's numbers do not depend on the block.
+GRAM_BLOCK_ROWS: Final[int] = 128
 
-    Column 0 is the lagged level, column ``1 + j`` the difference at lag ``j`` (lag 0, column 1, is the
-    response). ``levels`` are already centred or detrended (:func:`_remove_terms`); ``start >= lags``. The
+
+def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
+                     ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, np.ndarray | None]:
+    """:func:`_block_gram` on blocks of at most :data:`GRAM_BLOCK_ROWS` rows."""
+    rows = levels.shape[0]
+    if rows <= GRAM_BLOCK_ROWS:
+        return _block_gram(levels, start, lags, trend_count)
+    parts = [_block_gram(levels[first : first + GRAM_BLOCK_ROWS], start, lags, trend_count)
+             for first in range(0, rows, GRAM_BLOCK_ROWS)]
+    gram, raw, sums, weighted = zip(*parts, strict=True)
+    if trend_count == 0:
+        return np.concatenate(gram), np.concatenate(raw), None, None
+    return np.concatenate(gram), np.concatenate(raw), np.concatenate(sums), np.concatenate(weighted)
+
+
+def _block_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
+                ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, np.ndarray | None]:
+    """Cross products of ``[y_s, dy_{s-1}, .., dy_{s-lags}, dy_s]`` over ``s = start .. T-2``.
+
+    Column 0 is the lagged level, column ``j`` the difference at lag ``j``, the last column the
+    response ``dy_s``. ``levels`` are already centred or detrended (:func:`_remove_terms`); ``start >= lags``. The
     deterministic terms of ``trend_count`` (a constant; a constant and the trend ``1..n``) are removed
-    from every cross product analytically. Returns the Gram matrix after that removal and its
-    diagonal before it.
+    from every cross product analytically. Returns the Gram matrix after that removal, its
+    diagonal before it, and (with deterministic terms) every column's sum and ``1..n``-weighted sum.
 
     One dot product per lag distance ``h`` gives ``sum_s dy_s dy_{s-h}``; the pair of lags
     ``(i, i + h)`` sums the same products on the window shifted by ``i``, which is that sum plus the
@@ -247,6 +311,7 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     nobs = end - start
     size = lags + 2
     distance_index, corrected, position, first, second, upper = _gram_layout(lags)
+    response = lags + 1
 
     window = differences[:, start:end]
     view = np.lib.stride_tricks.sliding_window_view(differences, nobs, axis=1)  # view[:, t] = dy[t : t + n]
@@ -256,12 +321,13 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
         # D_h(v) = dy_{v-h} dy_v for the last `lags` rows before the start and before the end of the
         # window; the pair (i, i + h) adds sum_{v=start-i..start-1} D_h(v) and removes the same at the end.
         # (Entries with v - h < 0 are never used: they would need i > lags - h.)
-        offsets = np.arange(lags + 1)
-        head = differences[:, np.maximum(np.arange(start - lags, start)[:, None] - offsets, 0)]
-        tail = differences[:, np.arange(end - lags, end)[:, None] - offsets]
-        ends = head * head[:, :, :1] - tail * tail[:, :, :1]  # [v, h]
-        ends = np.cumsum(ends[:, ::-1], axis=1)  # [k - 1, h]: the last k rows
-        values = values + np.where(corrected, ends[:, position, distance_index], 0.0)
+        head_index, tail_index = _end_indices(start, end, lags)
+        head = differences[:, head_index]
+        tail = differences[:, tail_index]
+        ends = head * head[:, :, :1]
+        ends -= tail * tail[:, :, :1]  # [v, h], v from the window's edge backwards
+        _running_sums(ends)  # [k - 1, h]: the last k rows
+        values += np.where(corrected, ends[:, position, distance_index], 0.0)
     gram = np.empty((rows, size, size))
     gram[:, first, second] = values
     gram[:, second, first] = values
@@ -269,18 +335,22 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     # The lagged level: sum_s y_s dy_{s-j} = sum_s y_{s-j} dy_{s-j} + sum_{i=1..j} sum_s dy_{s-i} dy_{s-j}.
     level = levels[:, start:end]
     gram[:, 0, 0] = _rowdot(level, level)
-    products = levels[:, :end] * differences
-    own = products[:, start:end].sum(axis=1)
+    own = _rowdot(level, window)
     cross = np.empty((rows, lags + 1))
     cross[:, 0] = own
     if lags:
-        head_own, tail_own = _end_sums(products, start, end, lags)
-        cross[:, 1:] = own[:, None] + head_own - tail_own + np.where(upper, gram[:, 2:, 2:], 0.0).sum(axis=1)
-    gram[:, 0, 1:] = cross
-    gram[:, 1:, 0] = cross
+        entering = levels[:, start - lags : start] * differences[:, start - lags : start]
+        leaving = levels[:, end - lags : end] * differences[:, end - lags : end]
+        shifted_own = entering[:, ::-1] - leaving[:, ::-1]
+        _running_sums(shifted_own)
+        cross[:, 1:] = own[:, None] + shifted_own + np.where(upper, gram[:, 1:response, 1:response], 0.0).sum(axis=1)
+    gram[:, 0, 1:response] = cross[:, 1:]
+    gram[:, 1:response, 0] = cross[:, 1:]
+    gram[:, 0, response] = cross[:, 0]
+    gram[:, response, 0] = cross[:, 0]
     raw_diagonal = np.diagonal(gram, axis1=1, axis2=2).copy()
     if trend_count == 0:
-        return gram, raw_diagonal
+        return gram, raw_diagonal, None, None
 
     # Window sums: sum_s dy_{s-j} = y_{end-j} - y_{start-j}; sum_s r dy_{s-j} = n y_{end-j} - sum_s y_{s-j}
     # with r = 1..n (summation by parts); the level's directly.
@@ -289,14 +359,18 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     sums = np.empty((rows, size))
     weighted = np.empty((rows, size))
     sums[:, 0] = level_sum
-    sums[:, 1:] = levels[:, end - lag_numbers] - levels[:, start - lag_numbers]
+    difference_sums = levels[:, end - lag_numbers] - levels[:, start - lag_numbers]
+    sums[:, 1:response] = difference_sums[:, 1:]
+    sums[:, response] = difference_sums[:, 0]
     shifted_level_sums = np.empty((rows, lags + 1))  # sum of y_{s-j} over the window, j = 0..lags
     shifted_level_sums[:, 0] = level_sum
     if lags:
         head_level, tail_level = _end_sums(levels, start, end, lags)
         shifted_level_sums[:, 1:] = level_sum[:, None] + head_level - tail_level
     weighted[:, 0] = np.einsum("ij,j->i", level, np.arange(1.0, nobs + 1.0))
-    weighted[:, 1:] = nobs * levels[:, end - lag_numbers] - shifted_level_sums
+    difference_weighted = nobs * levels[:, end - lag_numbers] - shifted_level_sums
+    weighted[:, 1:response] = difference_weighted[:, 1:]
+    weighted[:, response] = difference_weighted[:, 0]
     constant_part = sums / math.sqrt(nobs)
     gram -= constant_part[:, :, None] * constant_part[:, None, :]
     if trend_count == 2:
@@ -304,38 +378,43 @@ def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
         spread = math.sqrt(nobs * (nobs * nobs - 1.0) / 12.0) if nobs > 1 else 1.0
         trend_part = (weighted - mean_trend * sums) / spread
         gram -= trend_part[:, :, None] * trend_part[:, None, :]
-    return gram, raw_diagonal
+    return gram, raw_diagonal, sums, weighted
 
 
-def _factor(gram: np.ndarray, raw_diagonal: np.ndarray, order: Sequence[int]) -> _Factor:
-    """Cholesky factor of the Gram matrix in ``order`` (response last), each column scaled by its raw length."""
-    index = np.asarray(order)
-    permuted = gram[:, index[:, None], index[None, :]]
-    scale = np.sqrt(raw_diagonal[:, index])
-    usable = np.all(scale > 0.0, axis=1) & np.all(np.isfinite(permuted), axis=(1, 2))
-    scale = np.where(scale > 0.0, scale, 1.0)
-    scaled = permuted / (scale[:, :, None] * scale[:, None, :])
-    scaled[~usable] = np.eye(index.size)
+def _factor(gram: np.ndarray, raw_diagonal: np.ndarray, order: Sequence[int] | None = None) -> _Factor:
+    """Cholesky factor of the Gram matrix with its columns in ``order`` (response last; None: as they are).
+
+    Cholesky's rounding does not depend on the scale of the columns (its error bound is invariant
+    under diagonal scaling), so the matrix is factored as it is; each column's share of its raw
+    squared length left after the columns before it is ``L_jj^2 / raw_j``.
+    """
+    if order is None:
+        permuted, raw = gram, raw_diagonal
+    else:
+        index = np.asarray(order)
+        permuted = gram[:, index[:, None], index[None, :]]
+        raw = raw_diagonal[:, index]
+    size = permuted.shape[1]
+    usable = np.all(raw > 0.0, axis=1) & np.all(np.isfinite(permuted), axis=(1, 2))
+    if not usable.all():
+        permuted = permuted.copy()
+        permuted[~usable] = np.eye(size)
     try:
-        lower = np.linalg.cholesky(scaled)
-        factored = np.ones(scaled.shape[0], dtype=bool)
+        lower = np.linalg.cholesky(permuted)
+        factored = np.ones(permuted.shape[0], dtype=bool)
     except np.linalg.LinAlgError:
-        lower = np.zeros_like(scaled)
-        factored = np.zeros(scaled.shape[0], dtype=bool)
-        for row in range(scaled.shape[0]):
+        lower = np.zeros_like(permuted)
+        factored = np.zeros(permuted.shape[0], dtype=bool)
+        for row in range(permuted.shape[0]):
             try:
-                lower[row] = np.linalg.cholesky(scaled[row])
+                lower[row] = np.linalg.cholesky(permuted[row])
                 factored[row] = True
             except np.linalg.LinAlgError:
-                lower[row] = np.eye(index.size)
-    shares = np.diagonal(lower, axis1=1, axis2=2) ** 2
+                lower[row] = np.eye(size)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        shares = np.diagonal(lower, axis1=1, axis2=2) ** 2 / raw
     trusted = usable & factored & np.all(shares >= FAST_SHARE, axis=1)
-    response = index[-1]
-    return _Factor(lower=lower, response_sum=gram[:, response, response], trusted=trusted)
-
-
-def _shifted_rows(levels: np.ndarray, trend_count: int) -> np.ndarray:
-    return _remove_terms(levels, trend_count)[0]
+    return _Factor(lower=lower, trusted=trusted)
 
 
 # --- exact arithmetic for the rows the cross products cannot vouch for ---------------------------------
@@ -418,29 +497,32 @@ def adf_lags(levels: np.ndarray, max_lags: int, trend_count: int,
         Criterion to an integer array of chosen lags, one per row.
     """
     levels = np.atleast_2d(np.asarray(levels, dtype=float))
+    return _search(levels, _remove_terms(levels, trend_count), max_lags, trend_count, criteria)
+
+
+def _search(levels: np.ndarray, shift: _Shift, max_lags: int, trend_count: int,
+            criteria: Sequence[str]) -> dict[str, np.ndarray]:
     rows, length = levels.shape
     nobs = length - 1 - max_lags
     first = trend_count
     largest = min(max_lags, nobs - first - 2)  # candidates without a residual degree of freedom are left out
     if largest < 0:
         raise ValueError(f"{length} observations are too few for an ADF regression with {max_lags} lags")
-    gram, raw = _regression_gram(_shifted_rows(levels, trend_count), max_lags, max_lags, trend_count)
-    factor = _factor(gram, raw, [0, *range(2, max_lags + 2), 1])  # level, lags 1..max, response
+    gram, raw, _, _ = _regression_gram(shift.shifted, max_lags, max_lags, trend_count)
+    factor = _factor(gram, raw)  # level, lags 1..max, response
     projections = factor.lower[:, -1, :-1]
-    residual_share = factor.lower[:, -1, -1] ** 2
+    residual_sum = factor.lower[:, -1, -1] ** 2
     beyond = np.cumsum((projections**2)[:, ::-1], axis=1)[:, ::-1]
-    # share of model on columns 0..j = residual share + sum of the squared projections after j
-    shares = residual_share[:, None] + np.concatenate([beyond[:, 1:], np.zeros((rows, 1))], axis=1)
-    sums = shares * factor.response_sum[:, None]
+    # the model on columns 0..j leaves the full model's residuals and the projections after j
+    sums = residual_sum[:, None] + np.concatenate([beyond[:, 1:], np.zeros((rows, 1))], axis=1)
     freedom = nobs - first - np.arange(1, max_lags + 2)
     with np.errstate(divide="ignore", invalid="ignore"):
-        t_statistics = projections / np.sqrt(shares / freedom)
-    trusted = factor.trusted & (residual_share >= FAST_SHARE)
+        t_statistics = projections / np.sqrt(sums / freedom)
     chosen = {
         criterion: _choose(sums[:, : largest + 1], t_statistics, nobs, trend_count, largest, criterion)
         for criterion in criteria
     }
-    for row in np.flatnonzero(~trusted):
+    for row in np.flatnonzero(~factor.trusted):
         exact_sums, exact_t, _ = _exact_search(levels[row], max_lags, trend_count)
         candidates = exact_sums[first : first + largest + 1][None, :]
         for criterion in criteria:
@@ -449,19 +531,27 @@ def adf_lags(levels: np.ndarray, max_lags: int, trend_count: int,
     return {criterion: np.asarray(values, dtype=int) for criterion, values in chosen.items()}
 
 
-def _original_lengths(levels: np.ndarray, start: int, lags: int) -> np.ndarray:
-    """Squared lengths of ``[y_s, dy_s, dy_{s-1}, .., dy_{s-lags}]`` over ``s = start .. T-2`` as given
-    (not centred; the columns of :func:`_regression_gram`): the scale on which the refusals are judged."""
-    end = levels.shape[1] - 1
-    level = levels[:, start:end]
-    squares = np.diff(levels, axis=1) ** 2
-    response = squares[:, start:end].sum(axis=1)
-    lengths = np.empty((levels.shape[0], lags + 2))
-    lengths[:, 0] = _rowdot(level, level)
-    lengths[:, 1] = response
-    if lags:
-        head, tail = _end_sums(squares, start, end, lags)
-        lengths[:, 2:] = response[:, None] + head - tail
+def _original_lengths(raw: np.ndarray, sums: np.ndarray | None, weighted: np.ndarray | None, shift: _Shift,
+                      start: int, end: int) -> np.ndarray:
+    """Squared lengths of the columns of :func:`_regression_gram` as given (not centred) over
+    ``s = start .. end-1``: the scale on which the refusals are judged.
+
+    The level column is the centred one plus ``a + b s``, each difference column plus ``b``; the
+    lengths follow from the centred columns' lengths, sums and weighted sums. They are only compared
+    with thresholds far from the refusals', so the rounding of the sums does not matter.
+    """
+    if sums is None or weighted is None:
+        return raw
+    nobs = end - start
+    slope = shift.slope[:, None]
+    lengths = raw + 2.0 * slope * sums + nobs * slope**2
+    index_sum = nobs * (start + end - 1) / 2.0
+    last, first = end - 1, start - 1
+    square_sum = (last * (last + 1) * (2 * last + 1) - first * (first + 1) * (2 * first + 1)) / 6.0
+    level = raw[:, 0] + 2.0 * shift.offset * sums[:, 0]
+    level += 2.0 * shift.slope * (weighted[:, 0] + (start - 1.0) * sums[:, 0])
+    level += nobs * shift.offset**2 + 2.0 * shift.offset * shift.slope * index_sum + shift.slope**2 * square_sum
+    lengths[:, 0] = level
     return lengths
 
 
@@ -482,25 +572,31 @@ def dickey_fuller_statistics(levels: np.ndarray, lags: np.ndarray | int, trend_c
     statistic is NaN for a refused row.
     """
     levels = np.atleast_2d(np.asarray(levels, dtype=float))
+    return _refit(levels, _remove_terms(levels, trend_count), lags, trend_count)
+
+
+def _refit(levels: np.ndarray, shift: _Shift, lags: np.ndarray | int, trend_count: int
+           ) -> tuple[np.ndarray, np.ndarray]:
     rows, length = levels.shape
     lags = np.broadcast_to(np.asarray(lags, dtype=int), (rows,))
     statistics = np.full(rows, math.nan)
     status = np.full(rows, OK)
-    shifted = _shifted_rows(levels, trend_count)
-    for lag in np.unique(lags):
-        members = np.flatnonzero(lags == lag)
+    distinct = np.unique(lags) if rows > 1 else lags[:1]
+    for lag in distinct:
+        members = np.flatnonzero(lags == lag) if distinct.size > 1 else np.arange(rows)
         lag = int(lag)
         nobs = length - 1 - lag
         freedom = nobs - trend_count - lag - 1
-        gram, raw = _regression_gram(shifted[members], lag, lag, trend_count)
-        order = [*range(2, lag + 2), 0, 1]  # lagged differences, the level, the response
+        part = shift if members.size == rows else _Shift(shift.shifted[members], shift.offset[members],
+                                                         shift.slope[members])
+        gram, raw, sums, weighted = _regression_gram(part.shifted, lag, lag, trend_count)
+        order = [*range(1, lag + 1), 0, lag + 1]  # lagged differences, the level, the response
         factor = _factor(gram, raw, order)
-        residual_share = factor.lower[:, -1, -1] ** 2
         with np.errstate(divide="ignore", invalid="ignore"):
-            values = factor.lower[:, -1, -2] / np.sqrt(residual_share / freedom)
+            values = factor.lower[:, -1, -2] / np.sqrt(factor.lower[:, -1, -1] ** 2 / freedom)
         # What each column keeps after the ones before it, on the scale of the columns as given.
-        kept = np.diagonal(factor.lower, axis1=1, axis2=2) ** 2 * raw[:, order]
-        original = _original_lengths(levels[members], lag, lag)[:, order]
+        kept = np.diagonal(factor.lower, axis1=1, axis2=2) ** 2
+        original = _original_lengths(raw, sums, weighted, part, lag, length - 1)[:, order]
         trusted = (
             factor.trusted
             & np.isfinite(values)
@@ -513,6 +609,19 @@ def dickey_fuller_statistics(levels: np.ndarray, lags: np.ndarray | int, trend_c
             row = int(members[position])
             statistics[row], status[row] = _exact_statistic(levels[row], lag, trend_count)
     return statistics, status
+
+
+def adf_arrays(levels: np.ndarray, max_lags: int, trend_count: int, criteria: Sequence[str] = CRITERIA
+               ) -> dict[str, tuple[np.ndarray, np.ndarray, np.ndarray]]:
+    """ADF with automatic lags on every row: for each criterion the lags, statistics and status.
+
+    The same numbers as :func:`adf_lags` followed by :func:`dickey_fuller_statistics`, with the
+    centring done once.
+    """
+    levels = np.atleast_2d(np.asarray(levels, dtype=float))
+    shift = _remove_terms(levels, trend_count)
+    chosen = _search(levels, shift, max_lags, trend_count, criteria)
+    return {criterion: (lags, *_refit(levels, shift, lags, trend_count)) for criterion, lags in chosen.items()}
 
 
 # --- p-values and critical values -------------------------------------------------------------------
@@ -546,6 +655,55 @@ def mackinnon_critical_values(regression: str, nobs: int) -> tuple[float, float,
     coefficients = tau_2010s[regression][0, :, ::-1]
     values = np.polyval(coefficients.T, 1.0 / nobs)
     return float(values[0]), float(values[1]), float(values[2])
+
+
+def dfgls_trend_critical_values(nobs: int) -> dict[str, float]:
+    """DF-GLS critical values with constant and trend: Elliott, Rothenberg and Stock (1996), Table I.
+
+    The table's rows (T = 50, 100, 200 and infinity) are interpolated linearly in ``1/T``; below
+    T = 50 the T = 50 row is used.
+
+    Parameters
+    ----------
+    nobs : int
+        Number of observations of the series (the sample that is GLS-detrended).
+
+    Returns
+    -------
+    dict
+        ``{"1%": ..., "5%": ..., "10%": ...}``.
+
+    References
+    ----------
+    Elliott, G., Rothenberg, T. J. and Stock, J. H. (1996). Efficient tests for an autoregressive
+    unit root. *Econometrica* 64, 813-836.
+    """
+    if nobs < 1:
+        raise ValueError(f"nobs must be positive; got {nobs}")
+    inverse = [0.0 if math.isinf(size) else 1.0 / size for size in ERS_TREND_TABLE]
+    order = np.argsort(inverse)
+    positions = np.asarray(inverse)[order]
+    rows = np.asarray(list(ERS_TREND_TABLE.values()))[order]
+    return {
+        key: float(np.interp(1.0 / nobs, positions, rows[:, column]))
+        for column, key in enumerate(("1%", "5%", "10%"))
+    }
+
+
+def table_pvalues(statistics: np.ndarray, points: Sequence[float], levels: Sequence[float],
+                  ) -> tuple[np.ndarray, np.ndarray]:
+    """p-values interpolated linearly in a table of critical values (``numpy.interp``), a bound beyond.
+
+    ``points`` increase; ``levels`` are their significance levels. Returns the p-values and the
+    bounds: ``-1`` where the p-value is below the table's smallest level (reported as that level, an
+    upper bound), ``+1`` above its largest, ``0`` inside.
+    """
+    statistics = np.asarray(statistics, dtype=float)
+    below, above = statistics < points[0], statistics > points[-1]
+    first_is_smallest = levels[0] < levels[-1]
+    bound = np.where(below, -1 if first_is_smallest else 1, np.where(above, 1 if first_is_smallest else -1, 0))
+    pvalues = np.where(below, levels[0], np.where(above, levels[-1], np.interp(statistics, points, levels)))
+    return pvalues, bound
 
 
 # --- long-run variances -------------------------------------------------------------------------------
@@ -656,8 +814,8 @@ def phillips_perron_arrays(levels: np.ndarray, trend_count: int,
     nobs = length - 1
     lagged = levels[:, :-1]
     differences = np.diff(levels, axis=1)
-    lagged_left, _, _ = _remove_terms(lagged, trend_count)
-    differences_left, _, _ = _remove_terms(differences, trend_count)
+    lagged_left = _remove_terms(lagged, trend_count).shifted
+    differences_left = _remove_terms(differences, trend_count).shifted
     lagged_sum = _rowdot(lagged_left, lagged_left)
     with np.errstate(divide="ignore", invalid="ignore"):
         coefficient = _rowdot(lagged_left, differences_left) / lagged_sum
@@ -719,7 +877,7 @@ def kpss_arrays(levels: np.ndarray, trend_count: int, lags: int | np.ndarray | N
     """
     levels = np.atleast_2d(np.asarray(levels, dtype=float))
     rows, nobs = levels.shape
-    residuals, _, _ = _remove_terms(levels, trend_count)
+    residuals = _remove_terms(levels, trend_count).shifted
     if lags is None:
         chosen = _hobijn_bandwidths(residuals)
     else:
@@ -787,6 +945,26 @@ def dfgls_arrays(levels: np.ndarray, deterministic: str, criteria: Sequence[str]
         statistics[criterion] = np.where(away, math.nan, values)
         status[criterion] = codes
     return statistics, lags, status, np.where(away, DETRENDED_AWAY, OK)
+
+
+def dfgls_pvalues(statistics: np.ndarray, lags: np.ndarray, deterministic: str, length: int
+                  ) -> tuple[np.ndarray, np.ndarray]:
+    """DF-GLS p-values interpolated between the 1%, 5% and 10% critical values, a bound beyond.
+
+    With constant the critical values are MacKinnon's (1996) without deterministic terms at the
+    regression's ``T - 1 - lags`` observations; with constant and trend Elliott, Rothenberg and
+    Stock's (1996) Table I at ``T`` (:func:`dfgls_trend_critical_values`).
+    """
+    pvalues = np.full(statistics.shape, math.nan)
+    bounds = np.zeros(statistics.shape, dtype=int)
+    if deterministic == "constant-trend":
+        table = dfgls_trend_critical_values(length)
+        return table_pvalues(statistics, [table["1%"], table["5%"], table["10%"]], (0.01, 0.05, 0.10))
+    for lag in np.unique(lags):
+        members = np.flatnonzero(lags == lag)
+        points = mackinnon_critical_values("n", length - 1 - int(lag))
+        pvalues[members], bounds[members] = table_pvalues(statistics[members], points, (0.01, 0.05, 0.10))
+    return pvalues, bounds
 
 
 # --- the whole battery on a block of series -----------------------------------------------------------
@@ -863,9 +1041,7 @@ def _battery(values: np.ndarray, max_order: int, terms: Sequence[str], criteria:
             trend_count = TREND_COUNT[deterministic]
             regression = _REGRESSION[deterministic]
             max_lags = min(schwert_max_lags(length), length // 2 - trend_count - 1)
-            lags = adf_lags(rows, max_lags, trend_count, criteria)
-            for criterion, chosen in lags.items():
-                statistic, status = dickey_fuller_statistics(rows, chosen, trend_count)
+            for criterion, (chosen, statistic, status) in adf_arrays(rows, max_lags, trend_count, criteria).items():
                 pvalue, bound = mackinnon_pvalues(statistic, regression)
                 tests[(level, "ADF", deterministic, criterion)] = TestArrays(statistic, pvalue, bound, chosen, status)
             pp = phillips_perron_arrays(rows, trend_count)
@@ -874,12 +1050,13 @@ def _battery(values: np.ndarray, max_order: int, terms: Sequence[str], criteria:
                                                                    pp.status)
             statistics, gls_lags, statuses, _ = dfgls_arrays(rows, deterministic, criteria, max_lags)
             for criterion in criteria:
+                pvalue, bound = dfgls_pvalues(statistics[criterion], gls_lags[criterion], deterministic, length)
                 tests[(level, "DF-GLS", deterministic, criterion)] = TestArrays(
-                    statistics[criterion], np.full(len(rows), math.nan), np.zeros(len(rows), dtype=int),
-                    gls_lags[criterion], statuses[criterion])
+                    statistics[criterion], pvalue, bound, gls_lags[criterion], statuses[criterion])
             bandwidth = kpss_short_bandwidth(length) if kpss_lags == "short" else None
             statistic, used = kpss_arrays(rows, trend_count, bandwidth)
-            tests[(level, "KPSS", deterministic, None)] = TestArrays(
-                statistic, np.full(len(rows), math.nan), np.zeros(len(rows), dtype=int), used,
-                np.full(len(rows), OK))
+            table = KPSS_TABLE[deterministic]
+            pvalue, bound = table_pvalues(statistic, list(table.values()), (0.10, 0.05, 0.025, 0.01))
+            tests[(level, "KPSS", deterministic, None)] = TestArrays(statistic, pvalue, bound, used,
+                                                                     np.full(len(rows), OK))
     return BatteryArrays(tests=tests, lengths=lengths)

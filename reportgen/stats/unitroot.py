@@ -97,24 +97,13 @@ ADF_CRITERIA: Final[dict[str, str]] = {"aic": "AIC", "bic": "BIC", "t-stat": "t-
 #: Significance levels of KPSS (1992) Table 1, keyed by the table's column labels.
 _KPSS_LEVELS: Final[dict[float, str]] = {0.10: "10%", 0.05: "5%", 0.025: "2.5%", 0.01: "1%"}
 #: Kwiatkowski, Phillips, Schmidt and Shin (1992), Table 1, asymptotic critical values (10% to 1%).
-_KPSS_1992: Final[dict[str, dict[str, float]]] = {
-    "constant": {"10%": 0.347, "5%": 0.463, "2.5%": 0.574, "1%": 0.739},
-    "constant-trend": {"10%": 0.119, "5%": 0.146, "2.5%": 0.176, "1%": 0.216},
-}
+_KPSS_1992: Final[dict[str, dict[str, float]]] = engine.KPSS_TABLE
 #: Significance levels of the three-column tables (DF-GLS, Zivot-Andrews), keyed by column label.
 _TABLE_LEVELS: Final[dict[float, str]] = {0.01: "1%", 0.05: "5%", 0.10: "10%"}
 _MACKINNON_PVALUE_SOURCE: Final[str] = "MacKinnon (1994) response surface; a bound beyond its range"
 
-#: Elliott, Rothenberg and Stock (1996), Table I, DF-GLS with constant and trend (1%, 5%, 10%), by
-#: sample size; ``math.inf`` is the asymptotic row. Transcribed from memory (REFERENCES.md section 6).
-_ERS_TREND_TABLE: Final[dict[float, tuple[float, float, float]]] = {
-    50.0: (-3.77, -3.19, -2.89),
-    100.0: (-3.58, -3.03, -2.74),
-    200.0: (-3.46, -2.93, -2.64),
-    math.inf: (-3.48, -2.89, -2.57),
-}
 #: Local-to-unity parameter c-bar of the GLS quasi-differences (Elliott, Rothenberg and Stock 1996).
-DFGLS_CBAR: Final[dict[str, float]] = {"constant": -7.0, "constant-trend": -13.5}
+DFGLS_CBAR: Final[dict[str, float]] = engine.DFGLS_CBAR
 #: Zivot and Andrews (1992), asymptotic critical values for trim 0.15, from memory
 #: (REFERENCES.md section 6): model A (break in the intercept) and model C (intercept and trend).
 _ZA_1992: Final[dict[str, dict[str, float]]] = {
@@ -667,7 +656,7 @@ def _interpolated_pvalue(
             f"statistic {statistic:.4g} lies above the 10% critical value {points[2]:.4g} of {table}; "
             "the p-value is reported as a bound (p > 0.10)"
         )
-    return float(np.interp(statistic, points, [0.01, 0.05, 0.10])), None, None
+    return float(engine.table_pvalues(np.array([statistic]), points, (0.01, 0.05, 0.10))[0][0]), None, None
 
 
 def newey_west_bandwidth(residuals: np.ndarray) -> int:
@@ -1050,37 +1039,8 @@ def dickey_fuller_t_statistic(
     return statistic, series.size - 1 - lags
 
 
-def dfgls_trend_critical_values(nobs: int) -> dict[str, float]:
-    """DF-GLS critical values with constant and trend: Elliott, Rothenberg and Stock (1996), Table I.
-
-    The table's rows (T = 50, 100, 200 and infinity) are interpolated linearly in ``1/T``; below
-    T = 50 the T = 50 row is used.
-
-    Parameters
-    ----------
-    nobs : int
-        Number of observations of the series (the sample that is GLS-detrended).
-
-    Returns
-    -------
-    dict
-        ``{"1%": ..., "5%": ..., "10%": ...}``.
-
-    References
-    ----------
-    Elliott, G., Rothenberg, T. J. and Stock, J. H. (1996). Efficient tests for an autoregressive
-    unit root. *Econometrica* 64, 813-836.
-    """
-    if nobs < 1:
-        raise ValueError(f"nobs must be positive; got {nobs}")
-    inverse = [0.0 if math.isinf(size) else 1.0 / size for size in _ERS_TREND_TABLE]
-    order = np.argsort(inverse)
-    positions = np.asarray(inverse)[order]
-    rows = np.asarray(list(_ERS_TREND_TABLE.values()))[order]
-    return {
-        key: float(np.interp(1.0 / nobs, positions, rows[:, column]))
-        for column, key in enumerate(("1%", "5%", "10%"))
-    }
+#: DF-GLS critical values with constant and trend (Elliott, Rothenberg and Stock 1996, Table I).
+dfgls_trend_critical_values = engine.dfgls_trend_critical_values
 
 
 def dfgls(

@@ -22,6 +22,10 @@ Nothing is precomputed or stored: every reference value is computed in the test.
 from __future__ import annotations
 
 import math
+import os
+import pathlib
+import subprocess
+import sys
 import warnings
 
 import numpy as np
@@ -218,8 +222,15 @@ def test_a_block_gives_every_row_the_numbers_it_gets_alone() -> None:
                     row, key, name)
 
 
+def _same_numbers(result: object, arrays: engine.TestArrays, row: int) -> bool:
+    bound = {None: 0, "<": -1, ">": 1}[result.pvalue_bound]
+    return (result.statistic, result.lags, result.pvalue, bound) == (
+        arrays.statistic[row], arrays.lags[row], arrays.pvalue[row], arrays.bound[row])
+
+
 def test_the_battery_gives_the_numbers_of_the_single_series_tests() -> None:
-    # reportgen.stats.unitroot runs the same arithmetic one series at a time: identical numbers.
+    # reportgen.stats.unitroot runs the same arithmetic one series at a time: identical numbers,
+    # p-values and bounds included.
     import pandas as pd
 
     from reportgen.stats.unitroot import adf, dfgls, kpss, phillips_perron
@@ -233,18 +244,27 @@ def test_the_battery_gives_the_numbers_of_the_single_series_tests() -> None:
             series = pd.Series(np.diff(values, level) if level else values, index=index[level:])
             for deterministic in ("constant", "constant-trend"):
                 for criterion in engine.CRITERIA:
-                    ours = adf(series, level=level, deterministic=deterministic, lag_criterion=criterion,
-                               significance=0.05)
-                    expected = battery.tests[(level, "ADF", deterministic, criterion)]
-                    assert (ours.statistic, ours.lags) == (expected.statistic[row], expected.lags[row])
-                    ours = dfgls(series, level=level, deterministic=deterministic, lag_criterion=criterion,
+                    result = adf(series, level=level, deterministic=deterministic, lag_criterion=criterion,
                                  significance=0.05)
-                    expected = battery.tests[(level, "DF-GLS", deterministic, criterion)]
-                    assert (ours.statistic, ours.lags) == (expected.statistic[row], expected.lags[row])
-                pp = phillips_perron(series, level=level, deterministic=deterministic, significance=0.05)
-                expected = battery.tests[(level, "PP", deterministic, None)]
-                assert (pp.statistic, pp.bandwidth) == (expected.statistic[row], expected.lags[row])
+                    assert _same_numbers(result, battery.tests[(level, "ADF", deterministic, criterion)], row)
+                    result = dfgls(series, level=level, deterministic=deterministic, lag_criterion=criterion,
+                                   significance=0.05)
+                    assert _same_numbers(result, battery.tests[(level, "DF-GLS", deterministic, criterion)], row)
+                result = phillips_perron(series, level=level, deterministic=deterministic, significance=0.05)
+                assert _same_numbers(result, battery.tests[(level, "PP", deterministic, None)], row)
                 short = engine.kpss_short_bandwidth(series.size)
-                stationarity = kpss(series, level=level, deterministic=deterministic, significance=0.05, lags=short)
-                expected = battery.tests[(level, "KPSS", deterministic, None)]
-                assert stationarity.statistic == expected.statistic[row]
+                result = kpss(series, level=level, deterministic=deterministic, significance=0.05, lags=short)
+                assert _same_numbers(result, battery.tests[(level, "KPSS", deterministic, None)], row)
+
+
+def test_the_battery_benchmark_runs_and_finds_no_lag_mismatch() -> None:
+    # A smoke run of bench/battery.py: it finishes and agrees with statsmodels and arch on every
+    # lag. Its timings are not checked.
+    root = pathlib.Path(__file__).resolve().parents[2]
+    completed = subprocess.run(
+        [sys.executable, str(root / "bench" / "battery.py"), "--quick"],
+        capture_output=True, text=True, timeout=300, check=False, cwd=root,
+        env={**os.environ, "PYTHONPATH": str(root)},
+    )
+    assert completed.returncode == 0, completed.stdout + completed.stderr
+    assert "lag mismatches: 0" in completed.stdout
