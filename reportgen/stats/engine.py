@@ -126,6 +126,7 @@ ERS_TREND_TABLE: Final[dict[float, tuple[float, float, float]]] = {
 #: Autocovariances are summed directly up to this many lags, taken from an FFT beyond.
 DIRECT_AUTOCOVARIANCE_LAGS: Final[int] = 128
 
+_TINY: Final[float] = float(np.finfo(float).tiny)
 #: Status codes of a row: computed, singular regression, exact fit, nothing left after detrending.
 OK: Final[int] = 0
 COLLINEAR: Final[int] = 1
@@ -150,6 +151,14 @@ def statsmodels_max_lags(nobs: int, trend_count: int) -> int:
 def kpss_short_bandwidth(nobs: int) -> int:
     """The short KPSS bandwidth ``int(4 (T/100)^(1/4))`` of reportgen's decision rule."""
     return int(4.0 * (nobs / 100.0) ** 0.25)
+
+
+def _windows(values: np.ndarray, width: int) -> np.ndarray:
+    """Read-only view ``[:, t, :] = values[:, t : t + width]`` (``sliding_window_view`` without its checks)."""
+    rows, length = values.shape
+    row_stride, column_stride = values.strides
+    return np.lib.stride_tricks.as_strided(values, shape=(rows, length - width + 1, width),
+                                           strides=(row_stride, column_stride, column_stride), writeable=False)
 
 
 def _rowdot(first: np.ndarray, second: np.ndarray) -> np.ndarray:
@@ -274,22 +283,51 @@ def _end_sums(values: np.ndarray, start: int, end: int, lags: int) -> tuple[np.n
 GRAM_BLOCK_ROWS: Final[int] = 128
 
 
-def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
-                     ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, np.ndarray | None]:
+@dataclass(frozen=True, slots=True)
+class _Products:
+    """Cross products of the centred ADF columns over a window of ``nobs`` rows (deterministic terms
+    not yet removed), with each column's sum and ``1..n``-weighted sum (None without terms)."""
+
+    raw: np.ndarray
+    sums: np.ndarray | None
+    weighted: np.ndarray | None
+    nobs: int
+
+    def diagonal(self) -> np.ndarray:
+        return np.diagonal(self.raw, axis1=1, axis2=2)
+
+
+def _partialled(raw: np.ndarray, sums: np.ndarray | None, weighted: np.ndarray | None, nobs: int,
+                trend_count: int) -> np.ndarray:
+    """The cross products with the constant (and the trend ``1..n``) projected out, analytically."""
+    if trend_count == 0 or sums is None or weighted is None:
+        return raw
+    constant_part = sums / math.sqrt(nobs)
+    gram = raw - constant_part[:, :, None] * constant_part[:, None, :]
+    if trend_count == 2:
+        mean_trend = (nobs + 1.0) / 2.0
+        spread = math.sqrt(nobs * (nobs * nobs - 1.0) / 12.0) if nobs > 1 else 1.0
+        trend_part = (weighted - mean_trend * sums) / spread
+        gram -= trend_part[:, :, None] * trend_part[:, None, :]
+    return gram
+
+
+def _regression_gram(levels: np.ndarray, start: int, lags: int, trend_count: int) -> _Products:
     """:func:`_block_gram` on blocks of at most :data:`GRAM_BLOCK_ROWS` rows."""
     rows = levels.shape[0]
+    nobs = levels.shape[1] - 1 - start
     if rows <= GRAM_BLOCK_ROWS:
-        return _block_gram(levels, start, lags, trend_count)
+        return _Products(*_block_gram(levels, start, lags, trend_count), nobs=nobs)
     parts = [_block_gram(levels[first : first + GRAM_BLOCK_ROWS], start, lags, trend_count)
              for first in range(0, rows, GRAM_BLOCK_ROWS)]
-    gram, raw, sums, weighted = zip(*parts, strict=True)
+    raw, sums, weighted = zip(*parts, strict=True)
     if trend_count == 0:
-        return np.concatenate(gram), np.concatenate(raw), None, None
-    return np.concatenate(gram), np.concatenate(raw), np.concatenate(sums), np.concatenate(weighted)
+        return _Products(np.concatenate(raw), None, None, nobs)
+    return _Products(np.concatenate(raw), np.concatenate(sums), np.concatenate(weighted), nobs)
 
 
 def _block_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
-                ) -> tuple[np.ndarray, np.ndarray, np.ndarray | None, np.ndarray | None]:
+                ) -> tuple[np.ndarray, np.ndarray | None, np.ndarray | None]:
     """Cross products of ``[y_s, dy_{s-1}, .., dy_{s-lags}, dy_s]`` over ``s = start .. T-2``.
 
     Column 0 is the lagged level, column ``j`` the difference at lag ``j``, the last column the
@@ -314,7 +352,7 @@ def _block_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     response = lags + 1
 
     window = differences[:, start:end]
-    view = np.lib.stride_tricks.sliding_window_view(differences, nobs, axis=1)  # view[:, t] = dy[t : t + n]
+    view = _windows(differences, nobs)  # view[:, t] = dy[t : t + n]
     base = np.einsum("rhs,rs->rh", view[:, start - lags : start + 1][:, ::-1], window)  # sum_s dy_s dy_{s-h}
     values = base[:, distance_index]
     if lags:
@@ -348,9 +386,8 @@ def _block_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     gram[:, 1:response, 0] = cross[:, 1:]
     gram[:, 0, response] = cross[:, 0]
     gram[:, response, 0] = cross[:, 0]
-    raw_diagonal = np.diagonal(gram, axis1=1, axis2=2).copy()
     if trend_count == 0:
-        return gram, raw_diagonal, None, None
+        return gram, None, None
 
     # Window sums: sum_s dy_{s-j} = y_{end-j} - y_{start-j}; sum_s r dy_{s-j} = n y_{end-j} - sum_s y_{s-j}
     # with r = 1..n (summation by parts); the level's directly.
@@ -371,14 +408,7 @@ def _block_gram(levels: np.ndarray, start: int, lags: int, trend_count: int
     difference_weighted = nobs * levels[:, end - lag_numbers] - shifted_level_sums
     weighted[:, 1:response] = difference_weighted[:, 1:]
     weighted[:, response] = difference_weighted[:, 0]
-    constant_part = sums / math.sqrt(nobs)
-    gram -= constant_part[:, :, None] * constant_part[:, None, :]
-    if trend_count == 2:
-        mean_trend = (nobs + 1.0) / 2.0
-        spread = math.sqrt(nobs * (nobs * nobs - 1.0) / 12.0) if nobs > 1 else 1.0
-        trend_part = (weighted - mean_trend * sums) / spread
-        gram -= trend_part[:, :, None] * trend_part[:, None, :]
-    return gram, raw_diagonal, sums, weighted
+    return gram, sums, weighted
 
 
 def _factor(gram: np.ndarray, raw_diagonal: np.ndarray, order: Sequence[int] | None = None) -> _Factor:
@@ -469,7 +499,7 @@ def _choose(sums: np.ndarray, t_statistics: np.ndarray, nobs: int, trend_count: 
         significant = np.abs(t_statistics[:, 1 : largest + 1]) >= T_STAT_THRESHOLD
         positions = np.arange(1, largest + 1)
         return np.max(np.where(significant, positions, 0), axis=1, initial=0)
-    sums = np.maximum(sums, np.finfo(float).tiny)  # an exact fit ranks first, not as NaN
+    sums = np.maximum(sums, _TINY)  # an exact fit ranks first, not as NaN
     log_likelihood = -nobs / 2.0 * (math.log(2.0 * math.pi) + np.log(sums / nobs) + 1.0)
     penalty = 2.0 if criterion == "aic" else math.log(nobs)
     regressors = np.arange(trend_count + 1, trend_count + largest + 2)
@@ -502,14 +532,20 @@ def adf_lags(levels: np.ndarray, max_lags: int, trend_count: int,
 
 def _search(levels: np.ndarray, shift: _Shift, max_lags: int, trend_count: int,
             criteria: Sequence[str]) -> dict[str, np.ndarray]:
+    return _searched(levels, shift, max_lags, trend_count, criteria)[0]
+
+
+def _searched(levels: np.ndarray, shift: _Shift, max_lags: int, trend_count: int,
+              criteria: Sequence[str]) -> tuple[dict[str, np.ndarray], _Products]:
     rows, length = levels.shape
     nobs = length - 1 - max_lags
     first = trend_count
     largest = min(max_lags, nobs - first - 2)  # candidates without a residual degree of freedom are left out
     if largest < 0:
         raise ValueError(f"{length} observations are too few for an ADF regression with {max_lags} lags")
-    gram, raw, _, _ = _regression_gram(shift.shifted, max_lags, max_lags, trend_count)
-    factor = _factor(gram, raw)  # level, lags 1..max, response
+    products = _regression_gram(shift.shifted, max_lags, max_lags, trend_count)
+    gram = _partialled(products.raw, products.sums, products.weighted, nobs, trend_count)
+    factor = _factor(gram, products.diagonal())  # level, lags 1..max, response
     projections = factor.lower[:, -1, :-1]
     residual_sum = factor.lower[:, -1, -1] ** 2
     beyond = np.cumsum((projections**2)[:, ::-1], axis=1)[:, ::-1]
@@ -528,15 +564,15 @@ def _search(levels: np.ndarray, shift: _Shift, max_lags: int, trend_count: int,
         for criterion in criteria:
             chosen[criterion][row] = _choose(candidates, exact_t[None, first:], nobs, trend_count, largest,
                                              criterion)[0]
-    return {criterion: np.asarray(values, dtype=int) for criterion, values in chosen.items()}
+    return {criterion: np.asarray(values, dtype=int) for criterion, values in chosen.items()}, products
 
 
 def _original_lengths(raw: np.ndarray, sums: np.ndarray | None, weighted: np.ndarray | None, shift: _Shift,
-                      start: int, end: int) -> np.ndarray:
+                      start: int, end: int, level: int = 0) -> np.ndarray:
     """Squared lengths of the columns of :func:`_regression_gram` as given (not centred) over
     ``s = start .. end-1``: the scale on which the refusals are judged.
 
-    The level column is the centred one plus ``a + b s``, each difference column plus ``b``; the
+    The level column (``level``) is the centred one plus ``a + b s``, each difference column plus ``b``; the
     lengths follow from the centred columns' lengths, sums and weighted sums. They are only compared
     with thresholds far from the refusals', so the rounding of the sums does not matter.
     """
@@ -548,10 +584,10 @@ def _original_lengths(raw: np.ndarray, sums: np.ndarray | None, weighted: np.nda
     index_sum = nobs * (start + end - 1) / 2.0
     last, first = end - 1, start - 1
     square_sum = (last * (last + 1) * (2 * last + 1) - first * (first + 1) * (2 * first + 1)) / 6.0
-    level = raw[:, 0] + 2.0 * shift.offset * sums[:, 0]
-    level += 2.0 * shift.slope * (weighted[:, 0] + (start - 1.0) * sums[:, 0])
-    level += nobs * shift.offset**2 + 2.0 * shift.offset * shift.slope * index_sum + shift.slope**2 * square_sum
-    lengths[:, 0] = level
+    length = raw[:, level] + 2.0 * shift.offset * sums[:, level]
+    length += 2.0 * shift.slope * (weighted[:, level] + (start - 1.0) * sums[:, level])
+    length += nobs * shift.offset**2 + 2.0 * shift.offset * shift.slope * index_sum + shift.slope**2 * square_sum
+    lengths[:, level] = length
     return lengths
 
 
@@ -589,7 +625,9 @@ def _refit(levels: np.ndarray, shift: _Shift, lags: np.ndarray | int, trend_coun
         freedom = nobs - trend_count - lag - 1
         part = shift if members.size == rows else _Shift(shift.shifted[members], shift.offset[members],
                                                          shift.slope[members])
-        gram, raw, sums, weighted = _regression_gram(part.shifted, lag, lag, trend_count)
+        products = _regression_gram(part.shifted, lag, lag, trend_count)
+        gram = _partialled(products.raw, products.sums, products.weighted, nobs, trend_count)
+        raw, sums, weighted = products.diagonal(), products.sums, products.weighted
         order = [*range(1, lag + 1), 0, lag + 1]  # lagged differences, the level, the response
         factor = _factor(gram, raw, order)
         with np.errstate(divide="ignore", invalid="ignore"):
@@ -615,13 +653,83 @@ def adf_arrays(levels: np.ndarray, max_lags: int, trend_count: int, criteria: Se
                ) -> dict[str, tuple[np.ndarray, np.ndarray, np.ndarray]]:
     """ADF with automatic lags on every row: for each criterion the lags, statistics and status.
 
-    The same numbers as :func:`adf_lags` followed by :func:`dickey_fuller_statistics`, with the
-    centring done once.
+    The lag search of :func:`adf_lags`; each chosen lag ``p`` is then refitted on its own sample from
+    the search's cross products, adding the ``max_lags - p`` rows the search's common sample left
+    out (:func:`_refit_from_search`), so the refits cost no further pass over the data. The numbers
+    are those of :func:`dickey_fuller_statistics` up to rounding (the sums are added in another order).
     """
     levels = np.atleast_2d(np.asarray(levels, dtype=float))
     shift = _remove_terms(levels, trend_count)
-    chosen = _search(levels, shift, max_lags, trend_count, criteria)
-    return {criterion: (lags, *_refit(levels, shift, lags, trend_count)) for criterion, lags in chosen.items()}
+    chosen, products = _searched(levels, shift, max_lags, trend_count, criteria)
+    return {
+        criterion: (lags, *_refit_from_search(levels, shift, products, max_lags, lags, trend_count))
+        for criterion, lags in chosen.items()
+    }
+
+
+def _refit_from_search(levels: np.ndarray, shift: _Shift, products: _Products, max_lags: int, lags: np.ndarray,
+                       trend_count: int) -> tuple[np.ndarray, np.ndarray]:
+    """Each row's ADF regression with its own lag ``p`` on its own sample ``s = p .. T-2``.
+
+    The search's cross products cover ``s = max_lags .. T-2`` for the level, lags ``1..max_lags``
+    and the response; the regression with ``p`` lags uses the level, lags ``1..p`` and the response,
+    and the rows ``s = p .. max_lags - 1`` are added explicitly (at most ``max_lags`` of them). Column
+    sums and weighted sums are carried the same way, then the deterministic terms are removed for
+    the longer sample. The same checks as :func:`dickey_fuller_statistics` decide which rows go to
+    Householder QR.
+    """
+    rows, length = levels.shape
+    end = length - 1
+    statistics = np.full(rows, math.nan)
+    status = np.full(rows, OK)
+    centred = shift.shifted
+    differences = np.diff(centred[:, : max_lags + 1], axis=1)  # dy_s for s < max_lags
+    anchored = None
+    if products.sums is not None and products.weighted is not None:
+        # sum over the search window of s * column_s: the weights r = s - max_lags + 1 shifted back
+        anchored = products.weighted + (max_lags - 1.0) * products.sums
+    distinct = np.unique(lags) if rows > 1 else lags[:1]
+    for lag in distinct:
+        members = np.flatnonzero(lags == lag) if distinct.size > 1 else np.arange(rows)
+        lag = int(lag)
+        nobs = end - lag
+        freedom = nobs - trend_count - lag - 1
+        order = np.array([*range(1, lag + 1), 0, max_lags + 1])  # lags 1..p, the level, the response
+        raw = products.raw[members][:, order[:, None], order[None, :]]
+        sums = products.sums[members][:, order] if products.sums is not None else None
+        weighted = anchored[members][:, order] if anchored is not None else None
+        for row in range(lag, max_lags):  # the rows the search's common sample left out
+            values = np.empty((members.size, lag + 2))
+            for column in range(lag):
+                values[:, column] = differences[members, row - column - 1]
+            values[:, lag] = centred[members, row]
+            values[:, lag + 1] = differences[members, row]
+            raw = raw + values[:, :, None] * values[:, None, :]
+            if sums is not None and weighted is not None:
+                sums = sums + values
+                weighted = weighted + float(row) * values
+        if sums is not None and weighted is not None:
+            weighted = weighted - (lag - 1.0) * sums  # back to r = s - p + 1
+        part = _Shift(centred[members], shift.offset[members], shift.slope[members])
+        gram = _partialled(raw, sums, weighted, nobs, trend_count)
+        diagonal = np.diagonal(raw, axis1=1, axis2=2)
+        factor = _factor(gram, diagonal)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            values = factor.lower[:, -1, -2] / np.sqrt(factor.lower[:, -1, -1] ** 2 / freedom)
+        kept = np.diagonal(factor.lower, axis1=1, axis2=2) ** 2
+        original = _original_lengths(diagonal, sums, weighted, part, lag, end, level=lag)
+        trusted = (
+            factor.trusted
+            & np.isfinite(values)
+            & (freedom > 0)
+            & np.all(kept[:, :-1] >= _KEPT_DIAGONAL**2 * original[:, :-1], axis=1)
+            & (kept[:, -1] >= _KEPT_FIT_SHARE * original[:, -1])
+        )
+        statistics[members] = np.where(trusted, values, math.nan)
+        for position in np.flatnonzero(~trusted):
+            row = int(members[position])
+            statistics[row], status[row] = _exact_statistic(levels[row], lag, trend_count)
+    return statistics, status
 
 
 # --- p-values and critical values -------------------------------------------------------------------
@@ -645,7 +753,10 @@ def mackinnon_pvalues(statistics: np.ndarray, regression: str) -> tuple[np.ndarr
     bound = np.where(statistics < tau_min, -1, np.where(statistics > tau_max, 1, 0))
     clipped = np.clip(statistics, tau_min, tau_max)
     clipped = np.where(np.isfinite(clipped), clipped, 0.0)
-    polynomial = np.where(clipped <= star, np.polyval(small, clipped), np.polyval(large, clipped))
+    if clipped.size == 1:  # the same arithmetic, one polynomial
+        polynomial = np.polyval(small if float(clipped.flat[0]) <= star else large, clipped)
+    else:
+        polynomial = np.where(clipped <= star, np.polyval(small, clipped), np.polyval(large, clipped))
     return scipy.special.ndtr(polynomial), bound
 
 
@@ -718,7 +829,7 @@ def _autocovariances(residuals: np.ndarray, lags: int) -> np.ndarray:
     rows, nobs = residuals.shape
     padded = np.zeros((rows, nobs + lags))
     padded[:, :nobs] = residuals
-    view = np.lib.stride_tricks.sliding_window_view(padded, nobs, axis=1)[:, : lags + 1]
+    view = _windows(padded, nobs)[:, : lags + 1]
     return np.einsum("rjs,rs->rj", view, residuals)
 
 

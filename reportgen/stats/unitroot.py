@@ -392,11 +392,19 @@ def adf(
     normalised = _normalised(array)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        chosen = search_lags if criterion == "fixed" else adf_lag_search(
-            normalised, search_lags, criterion, deterministic
-        )
-        _check_residual_freedom("ADF", deterministic, chosen, _TREND_COUNT[deterministic], nobs_series, level)
-        statistic, nobs = dickey_fuller_t_statistic(normalised, chosen, deterministic, test="ADF", level=level)
+        if criterion == "fixed":
+            chosen = search_lags
+            _check_residual_freedom("ADF", deterministic, chosen, _TREND_COUNT[deterministic], nobs_series, level)
+            statistic, nobs = dickey_fuller_t_statistic(normalised, chosen, deterministic, test="ADF", level=level)
+        else:
+            if nobs_series - 1 - search_lags < _TREND_COUNT[deterministic] + 2:
+                raise ValueError(f"{nobs_series} observations are too few for an ADF regression")
+            chosen, statistic, status = _adf_fit(_Series(normalised), search_lags, _TREND_COUNT[deterministic])[
+                criterion
+            ]
+            _check_residual_freedom("ADF", deterministic, chosen, _TREND_COUNT[deterministic], nobs_series, level)
+            _refuse(status, "ADF", level)
+            nobs = nobs_series - 1 - chosen
     notes = list(_warning_notes(caught))
 
     critical_values = _mackinnon_critical_values(regression, nobs)
@@ -968,6 +976,16 @@ def _searched_lags(series: _Series, max_lags: int, trend_count: int) -> dict[str
     return {criterion: int(values[0]) for criterion, values in chosen.items()}
 
 
+@functools.lru_cache(maxsize=64)
+def _adf_fit(series: _Series, max_lags: int, trend_count: int) -> dict[str, tuple[int, float, int]]:
+    """Every criterion's lag, statistic and refusal status (:func:`~reportgen.stats.engine.adf_arrays`):
+    one search and its refits, kept for the next criterion (the decision rule and the grid ask for
+    all three)."""
+    fitted = engine.adf_arrays(series.values[None, :], max_lags, trend_count, engine.CRITERIA)
+    return {criterion: (int(lags[0]), float(statistics[0]), int(status[0]))
+            for criterion, (lags, statistics, status) in fitted.items()}
+
+
 @functools.lru_cache(maxsize=128)
 def _refitted(series: _Series, lags: int, trend_count: int) -> tuple[float, int]:
     """The lagged level's t-statistic and the refusal status of one regression (kept like the searches)."""
@@ -1023,6 +1041,13 @@ def dickey_fuller_t_statistic(
     """
     series = np.asarray(series, dtype=float)
     statistic, status = _refitted(_Series(series), lags, _TREND_COUNT[deterministic])
+    _refuse(status, test, level)
+    return statistic, series.size - 1 - lags
+
+
+def _refuse(status: int, test: str, level: int) -> None:
+    """Raise the error of a refused regression (:data:`~reportgen.stats.engine.COLLINEAR` or
+    :data:`~reportgen.stats.engine.EXACT_FIT`); nothing for a computed one."""
     if status == engine.COLLINEAR:
         raise StatsInputError(
             problem=(
@@ -1036,7 +1061,6 @@ def dickey_fuller_t_statistic(
             problem=f"{test} cannot be run: the Dickey-Fuller regression fits the series exactly at level {level}",
             hint="a series without noise has no unit root to test; check the data",
         )
-    return statistic, series.size - 1 - lags
 
 
 #: DF-GLS critical values with constant and trend (Elliott, Rothenberg and Stock 1996, Table I).
