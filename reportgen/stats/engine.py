@@ -13,12 +13,16 @@ The ADF regression of ``dy_s`` on the lagged level ``y_s``, the lagged differenc
 ``dy_{s-1} .. dy_{s-p}`` and the deterministic terms has a Gram matrix whose difference block is
 Toeplitz up to the ends of the sample: ``sum_s dy_{s-i} dy_{s-j}`` is the same sum of lag-``|i-j|``
 products on a window shifted by ``min(i, j)``. :func:`_regression_gram` computes one dot product per
-lag distance and per lag of the level, corrects the shifted windows by the few products at their
-ends, and removes the constant and trend analytically (they are the same for every column); a
-Cholesky factor of the column-scaled result then gives every nested lag order's residual sum of
-squares and last t-statistic (the projections ``(Q'y)_j`` are the last row of the factor). The
-lag search costs ``O(T p)`` instead of ``p + 1`` regressions of ``O(T p^2)`` each, and the chosen
-lag is refitted on its own sample the same way.
+lag distance, corrects the shifted windows by the few products at their ends, gets the lagged
+level's products from ``y_s = y_{s-j} + dy_{s-1} + .. + dy_{s-j}`` and every column's sum from
+telescoping, and :func:`_partialled` removes the constant and trend analytically (they are the same
+for every column). A Cholesky factor of the result gives every nested lag order's residual sum of
+squares and last t-statistic (the projections ``(Q'y)_j`` are the last row of the factor). The lag
+search costs ``lags + 4`` passes over the data instead of ``lags + 1`` regressions of
+``O(T lags^2)`` each. The chosen lag is refitted on its own, longer sample from the same cross
+products plus the few rows the common sample left out (:func:`adf_arrays`), or, for a lag given
+by the caller, from its own cross products (:func:`dickey_fuller_statistics`); the two agree to
+about 1e-13.
 
 Before any cross product the series is centred (constant) or detrended by least squares (constant
 and trend). That changes no statistic (the shift is absorbed by the deterministic terms) but keeps
@@ -698,16 +702,18 @@ def _refit_from_search(levels: np.ndarray, shift: _Shift, products: _Products, m
         raw = products.raw[members][:, order[:, None], order[None, :]]
         sums = products.sums[members][:, order] if products.sums is not None else None
         weighted = anchored[members][:, order] if anchored is not None else None
-        for row in range(lag, max_lags):  # the rows the search's common sample left out
-            values = np.empty((members.size, lag + 2))
-            for column in range(lag):
-                values[:, column] = differences[members, row - column - 1]
-            values[:, lag] = centred[members, row]
-            values[:, lag + 1] = differences[members, row]
-            raw = raw + values[:, :, None] * values[:, None, :]
-            if sums is not None and weighted is not None:
-                sums = sums + values
-                weighted = weighted + float(row) * values
+        extra = np.arange(lag, max_lags)  # the rows the search's common sample left out
+        if extra.size:
+            added = np.empty((members.size, extra.size, lag + 2))
+            added[:, :, :lag] = differences[members[:, None, None], extra[:, None] - np.arange(1, lag + 1)]
+            added[:, :, lag] = centred[members[:, None], extra]
+            added[:, :, lag + 1] = differences[members[:, None], extra]
+            for position, row in enumerate(extra):  # in order of the rows: the sums do not depend on the block
+                values = added[:, position]
+                raw = raw + values[:, :, None] * values[:, None, :]
+                if sums is not None and weighted is not None:
+                    sums = sums + values
+                    weighted = weighted + float(row) * values
         if sums is not None and weighted is not None:
             weighted = weighted - (lag - 1.0) * sums  # back to r = s - p + 1
         part = _Shift(centred[members], shift.offset[members], shift.slope[members])

@@ -1,9 +1,12 @@
 """Least squares for long series: one decomposition for nested candidate regressions.
 
-Lag searches (ADF, DF-GLS, Zivot-Andrews, Engle-Granger, dynamic OLS) compare regressions whose
-columns are nested: each candidate adds columns to the one before. One decomposition of the
-largest design gives every candidate's residual sum of squares: with ``X = Q R`` and
-``p = Q'y``, the model on the first ``j`` columns leaves ``SSR_full + sum_{i >= j} p_i^2``.
+Lag searches compare regressions whose columns are nested: each candidate adds columns to the one
+before. One decomposition of the largest design gives every candidate's residual sum of squares:
+with ``X = Q R`` and ``p = Q'y``, the model on the first ``j`` columns leaves
+``SSR_full + sum_{i >= j} p_i^2``. Dynamic OLS searches its leads and lags this way and the
+Zivot-Andrews break search starts from :func:`orthonormal_factor`; the ADF-type searches build
+their cross products directly (:mod:`reportgen.stats.engine`) and come here only for the
+regressions those cannot vouch for.
 
 Every decomposition works on the design with its columns scaled to unit length, so none depends
 on the units of the variables. Below :data:`LARGE_SAMPLE` observations it is Householder QR
