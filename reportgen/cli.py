@@ -2,6 +2,7 @@
 
 Commands:
   reportgen run MANIFEST --out DIR [--format html,pdf|json] [--bundle] [--force] [--fail-on CONDITION]
+                [--jobs N | --cluster ADDRESS] [--cache DIR | --no-cache] [--quiet]
   reportgen verify DIR_OR_BUNDLE [--recompute] [--tolerance 1e-9]
   reportgen diff OLD NEW [--html FILE] [--tolerance 1e-6] [--exit-code]
   reportgen explain [CODE]
@@ -78,6 +79,16 @@ def _conditions(text: str) -> tuple[str, ...]:
     return chosen
 
 
+def _jobs(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"the number of jobs must be a whole number of at least 1; not {text!r}")
+    return value
+
+
 def _tolerance(text: str) -> float:
     try:
         value = float(text)
@@ -111,6 +122,18 @@ def build_parser() -> argparse.ArgumentParser:
                      metavar="CONDITION",
                      help="exit with status 1 after writing the dossier when a regression is flagged, fragile or "
                           "inconclusive (comma-separated or repeated)")
+    run.add_argument("--jobs", type=_jobs, default=None, metavar="N",
+                     help="worker processes for the statistics (default: one per core, for projects big enough to "
+                          "gain from them); 1 computes everything in this process")
+    run.add_argument("--cluster", metavar="ADDRESS",
+                     help="run the statistics on the Dask cluster of this scheduler (e.g. tcp://host:8786); "
+                          "needs reportgen[cluster]")
+    caching = run.add_mutually_exclusive_group()
+    caching.add_argument("--cache", type=Path, metavar="DIR",
+                         help="reuse the results of earlier runs stored in DIR (default: $REPORTGEN_CACHE, else "
+                              "$XDG_CACHE_HOME/reportgen, else ~/.cache/reportgen)")
+    caching.add_argument("--no-cache", action="store_true", dest="no_cache",
+                         help="compute everything again and store nothing")
     run.add_argument("--quiet", action="store_true", help="print nothing but errors")
     run.add_argument("--debug", action="store_true", help="show tracebacks of errors")
 
@@ -173,15 +196,54 @@ def _crash_report(error: BaseException) -> Path:
     return Path(name)
 
 
+#: Options of ``run`` that choose where and how the statistics are computed, never what they compute.
+EXECUTION_OPTIONS: dict[str, bool] = {"--jobs": True, "--cluster": True, "--cache": True, "--no-cache": False}
+
+
+def recorded_command(arguments: Sequence[str]) -> list[str]:
+    """The command line results.json records: ``arguments`` without the :data:`EXECUTION_OPTIONS`.
+
+    Runs that differ only in those options write the same results.json, byte for byte. Options
+    may be abbreviated as argparse allows (``--job 2``, ``--no-c``) or joined to their value
+    (``--jobs=2``).
+    """
+    names = _run_long_options()
+    kept: list[str] = []
+    skip = False
+    for position, argument in enumerate(arguments):
+        if skip:
+            skip = False
+            continue
+        if argument == "--":
+            kept.extend(arguments[position:])
+            break
+        option, joined, _ = argument.partition("=")
+        matches = [name for name in names if name.startswith(option)] if option.startswith("--") else []
+        full = option if option in names else (matches[0] if len(matches) == 1 else None)
+        if full in EXECUTION_OPTIONS:
+            skip = EXECUTION_OPTIONS[full] and not joined
+            continue
+        kept.append(argument)
+    return kept
+
+
+def _run_long_options() -> list[str]:
+    """Every long option of ``run`` (argparse keeps them in its actions; there is no public accessor)."""
+    subcommands = next(action for action in build_parser()._actions if isinstance(action, argparse._SubParsersAction))
+    return [option for action in subcommands.choices["run"]._actions for option in action.option_strings
+            if option.startswith("--")]
+
+
 def _run_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.cache import ResultCache, default_cache_dir
+    from reportgen.progress import progress_display
     from reportgen.runner import run
 
-    def progress(message: str) -> None:
-        if not options.quiet:
-            print(f"  {message}", file=sys.stderr, flush=True)
-
+    cache = None if options.no_cache else ResultCache(options.cache or default_cache_dir())
     outcome = run(options.manifest, options.out, options.formats, template_dirs=options.templates,
-                  command=["reportgen", *arguments], progress=progress, bundle=options.bundle, force=options.force)
+                  command=["reportgen", *recorded_command(arguments)],
+                  progress=progress_display(sys.stderr, quiet=options.quiet), bundle=options.bundle,
+                  force=options.force, jobs=options.jobs, cluster=options.cluster, cache=cache)
     if not options.quiet:
         print(_summary(dict(outcome.document), outcome.out_dir, outcome.files))
     conditions = [condition for group in options.fail_on for condition in group]

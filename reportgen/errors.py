@@ -753,3 +753,37 @@ def explain(code: str) -> str:
         lines.append(f"  fix:     {entry.fix}")
     lines.append("  exit status 2; the file, line and field are named; no dossier is written or changed")
     return "\n".join(lines)
+
+
+# ================================================================ running on a cluster
+
+
+class ClusterError(ReportgenError):
+    """The Dask cluster asked for cannot run the analysis."""
+
+    category = "Cluster error"
+
+
+class DaskMissingError(ClusterError):
+    """Running on a Dask cluster was asked for, but Dask's ``distributed`` package is not installed."""
+
+    code = "dask-missing"
+    template = "running on a Dask cluster needs the 'distributed' package, which is not installed ({problem})"
+    fix = "pip install 'reportgen[cluster]', or leave out --cluster and settings.executor: dask to run on this machine"
+
+
+class ClusterUnreachableError(ClusterError):
+    """The Dask scheduler named by ``--cluster`` does not answer."""
+
+    code = "cluster-unreachable"
+    template = "cannot reach the Dask scheduler at {address}: {reason}"
+    fix = "start the scheduler and its workers or correct the address; --jobs N runs on this machine instead"
+
+
+class ClusterMismatchError(ClusterError):
+    """A Dask cluster whose workers lack reportgen or run other versions of it or of the numerical packages."""
+
+    code = "cluster-mismatch"
+    template = "the Dask cluster at {address} cannot give this machine's results: {problem}"
+    fix = ("install the same versions of Python, reportgen, numpy, pandas, scipy, statsmodels and arch on every "
+           "worker, or run on this machine with --jobs N")

@@ -143,6 +143,9 @@ class SettingsSpec(_Model):
     deterministic: DeterministicPolicy = "auto"
     seed: int = Field(default=20240601, ge=0, le=2**32 - 1)
     too_short: TooShortPolicy = "error"
+    #: Where the statistics run: "local" (this machine, ``--jobs``) or "dask" (a Dask cluster). It
+    #: never changes a result, so it is left out of the settings that results.json records.
+    executor: Literal["local", "dask"] = "local"
 
 
 class ManifestSpec(_Model):
