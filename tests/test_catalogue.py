@@ -12,6 +12,7 @@ import errno
 import json
 import os
 import shutil
+import sys
 import zipfile
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -666,6 +667,55 @@ def _(p: Project) -> tuple[list[str], str]:
     with zipfile.ZipFile(target, "w") as archive:
         archive.writestr("readme.txt", "not a bundle")
     return ["verify", str(target)], f"{target}: error[not-a-bundle]"
+
+
+# ---------------------------------------------------------------- running on a cluster
+
+
+@case("dask-missing")
+def _(p: Project) -> tuple[list[str], str]:
+    p.manifest_text += "settings: {executor: dask}\n"
+    p.write()
+    p.monkeypatch.setitem(sys.modules, "distributed", None)  # import distributed fails as if not installed
+    return p.run(), (f"{p.where('executor: dask')}12: error[dask-missing]: settings.executor: running on a Dask "
+                     "cluster needs the 'distributed' package, which is not installed")
+
+
+@case("cluster-unreachable")
+def _(p: Project) -> tuple[list[str], str]:
+    from reportgen import executor
+
+    p.write()
+    p.monkeypatch.setattr(executor, "CLUSTER_CONNECT_TIMEOUT", 0.5)
+    return p.run("--cluster", "tcp://127.0.0.1:9"), \
+        "error[cluster-unreachable]: cannot reach the Dask scheduler at tcp://127.0.0.1:9: Timed out trying to connect"
+
+
+@case("cluster-mismatch")
+def _(p: Project) -> tuple[list[str], str]:
+    from reportgen import executor
+
+    here = executor.local_versions()
+
+    class Client:  # a scheduler whose one worker has another numpy
+        def __init__(self, address: str, timeout: float) -> None:
+            self.address = address
+
+        def nthreads(self) -> dict[str, int]:
+            return {"tcp://10.0.0.2:4000": 1}
+
+        def run(self, function: object, on_error: str) -> dict[str, dict[str, str]]:
+            return {"tcp://10.0.0.2:4000": {**here, "numpy": "1.0.0"}}
+
+        def close(self) -> None:
+            return None
+
+    p.write()
+    p.monkeypatch.setitem(sys.modules, "distributed", type(sys)("distributed"))
+    p.monkeypatch.setattr(sys.modules["distributed"], "Client", Client, raising=False)
+    return p.run("--cluster", "tcp://10.0.0.1:8786"), (
+        "error[cluster-mismatch]: the Dask cluster at tcp://10.0.0.1:8786 cannot give this machine's results: worker "
+        f"tcp://10.0.0.2:4000 has numpy 1.0.0 (here {here['numpy']})")
 
 
 #: Raised only by the statistics functions called directly (from a notebook), never by a run.
