@@ -118,82 +118,158 @@ class _MismatchError(ValueError):
     """A stored value that does not fit the type it should rebuild into."""
 
 
-@cache
-def _hints(cls: type) -> dict[str, Any]:
-    return typing.get_type_hints(cls)
+Reader = typing.Callable[[Any], Any]
 
 
 def decode(hint: Any, value: Any) -> Any:
     """Rebuild a value of type ``hint`` from its :func:`encode` form; raise ValueError if it does not fit."""
+    return _reader(hint)(value)
+
+
+@cache
+def _reader(hint: Any) -> Reader:
+    """A function rebuilding values of type ``hint`` (made once per type: entries hold many values)."""
     if hint is Any or hint is object:
-        return value
+        return _same
     if dataclasses.is_dataclass(hint) and isinstance(hint, type):
-        if not isinstance(value, dict):
-            raise _MismatchError(f"{hint.__name__}: expected an object")
-        fields = [field for field in dataclasses.fields(hint) if field.init]
-        if set(value) != {field.name for field in fields}:
-            raise _MismatchError(f"{hint.__name__}: fields differ")
-        hints = _hints(hint)
-        return hint(**{field.name: decode(hints[field.name], value[field.name]) for field in fields})
+        return _dataclass_reader(hint)
     origin = typing.get_origin(hint)
     arguments = typing.get_args(hint)
     if origin in (typing.Union, types.UnionType):
-        if value is None and type(None) in arguments:
-            return None
-        for argument in arguments:
-            if argument is type(None):
-                continue
-            try:
-                return decode(argument, value)
-            except _MismatchError:
-                continue
-        raise _MismatchError(f"{value!r} fits none of {hint}")
+        return _union_reader(hint, arguments)
     if origin is typing.Literal:
-        if value not in arguments:
-            raise _MismatchError(f"{value!r} is not one of {arguments}")
-        return value
+        allowed = frozenset(arguments)
+
+        def literal(value: Any) -> Any:
+            if type(value) is not str or value not in allowed:
+                raise _MismatchError(f"{value!r} is not one of {sorted(allowed)}")
+            return value
+
+        return literal
     if origin is tuple:
-        if not isinstance(value, list):
-            raise _MismatchError("expected a list")
-        if len(arguments) == 2 and arguments[1] is Ellipsis:
-            return tuple(decode(arguments[0], item) for item in value)
-        if len(arguments) != len(value):
-            raise _MismatchError("tuple length differs")
-        return tuple(decode(argument, item) for argument, item in zip(arguments, value, strict=True))
+        return _tuple_reader(arguments)
     if origin is list:
-        if not isinstance(value, list):
-            raise _MismatchError("expected a list")
-        return [decode(arguments[0] if arguments else Any, item) for item in value]
+        item = _reader(arguments[0] if arguments else Any)
+
+        def listed(value: Any) -> Any:
+            if type(value) is not list:
+                raise _MismatchError("expected a list")
+            return [item(element) for element in value]
+
+        return listed
     if origin in (dict, Mapping, typing.Mapping) or hint in (dict, Mapping):
-        if not isinstance(value, dict):
-            raise _MismatchError("expected an object")
         key_hint, item_hint = arguments if arguments else (str, Any)
-        return {_decode_key(key_hint, key): decode(item_hint, item) for key, item in value.items()}
+        return _mapping_reader(_key_reader(key_hint), _reader(item_hint))
     if hint is float:
-        if type(value) not in (int, float):
-            raise _MismatchError(f"{value!r} is not a number")
-        return value  # an int stays an int: it was one when it was stored
+        return _number
     if hint in (int, str, bool):
-        if type(value) is not hint:
-            raise _MismatchError(f"{value!r} is not {hint.__name__}")
-        return value
+        def exact(value: Any) -> Any:
+            if type(value) is not hint:
+                raise _MismatchError(f"{value!r} is not {hint.__name__}")
+            return value
+
+        return exact
     if hint is type(None):
-        if value is not None:
-            raise _MismatchError("expected null")
-        return None
+        return _none
     raise _MismatchError(f"cannot rebuild type {hint}")
 
 
-def _decode_key(hint: Any, key: str) -> Any:
-    if hint is int:
-        try:
-            return int(key)
-        except ValueError:
-            raise _MismatchError(f"{key!r} is not an integer key") from None
+def _same(value: Any) -> Any:
+    return value
+
+
+def _number(value: Any) -> Any:
+    if type(value) is not float and type(value) is not int:
+        raise _MismatchError(f"{value!r} is not a number")
+    return value  # an int stays an int: it was one when it was stored
+
+
+def _none(value: Any) -> None:
+    if value is not None:
+        raise _MismatchError("expected null")
+
+
+def _dataclass_reader(cls: type) -> Reader:
+    hints = typing.get_type_hints(cls)
+    fields = tuple(field.name for field in dataclasses.fields(cls) if field.init)
+    names = frozenset(fields)
+    readers: dict[str, Reader] = {}
+
+    def rebuild(value: Any) -> Any:
+        if type(value) is not dict or value.keys() != names:
+            raise _MismatchError(f"{cls.__name__}: expected an object with its fields")
+        if not readers:  # filled on first use: a field may hold this class itself
+            readers.update((name, _reader(hints[name])) for name in fields)
+        return cls(**{name: readers[name](value[name]) for name in fields})
+
+    return rebuild
+
+
+def _union_reader(hint: Any, arguments: tuple[Any, ...]) -> Reader:
+    optional = type(None) in arguments
+    choices = tuple(_reader(argument) for argument in arguments if argument is not type(None))
+
+    def either(value: Any) -> Any:
+        if value is None and optional:
+            return None
+        for choice in choices:
+            try:
+                return choice(value)
+            except _MismatchError:
+                continue
+        raise _MismatchError(f"{value!r} fits none of {hint}")
+
+    return either
+
+
+def _tuple_reader(arguments: tuple[Any, ...]) -> Reader:
+    if len(arguments) == 2 and arguments[1] is Ellipsis:
+        item = _reader(arguments[0])
+        if item is _same:
+            def any_items(value: Any) -> Any:
+                if type(value) is not list:
+                    raise _MismatchError("expected a list")
+                return tuple(value)
+
+            return any_items
+
+        def items(value: Any) -> Any:
+            if type(value) is not list:
+                raise _MismatchError("expected a list")
+            return tuple([item(element) for element in value])
+
+        return items
+    readers = tuple(_reader(argument) for argument in arguments)
+
+    def fixed(value: Any) -> Any:
+        if type(value) is not list or len(value) != len(readers):
+            raise _MismatchError(f"expected a list of {len(readers)}")
+        return tuple(reader(element) for reader, element in zip(readers, value, strict=True))
+
+    return fixed
+
+
+def _mapping_reader(key: Reader, item: Reader) -> Reader:
+    def mapping(value: Any) -> Any:
+        if type(value) is not dict:
+            raise _MismatchError("expected an object")
+        return {key(name): item(element) for name, element in value.items()}
+
+    return mapping
+
+
+def _key_reader(hint: Any) -> Reader:
     if hint is str or hint is Any:
-        return key
+        return _same
+    if hint is int:
+        def integer(key: str) -> int:
+            if not key.lstrip("-").isdigit() or not key.isascii():
+                raise _MismatchError(f"{key!r} is not an integer key")
+            return int(key)
+
+        return integer
     if typing.get_origin(hint) is typing.Literal:
-        return decode(hint, key)
+        return _reader(hint)
     raise _MismatchError(f"cannot rebuild a key of type {hint}")
 
 

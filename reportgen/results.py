@@ -101,8 +101,26 @@ class Results:
     cautions: tuple[str, ...] = CAUTIONS
 
 
+#: The field names of each dataclass met by :func:`_plain` (a run meets a few types, many times over).
+_FIELD_NAMES: dict[type, tuple[str, ...]] = {}
+
+
 def _plain(value: Any) -> Any:
     """Turn dataclasses, tuples and mappings into JSON values; floats follow the policy."""
+    kind = type(value)  # the exact built-in types first: a results document is millions of them
+    if kind is float:
+        return float(format(value, f".{FLOAT_DIGITS}g")) if math.isfinite(value) else None
+    if kind is str or kind is int or kind is bool or value is None:
+        return value
+    if kind is tuple or kind is list:
+        return [_plain(item) for item in value]
+    if kind is dict:
+        return {str(key): _plain(item) for key, item in value.items()}
+    names = _FIELD_NAMES.get(kind)
+    if names is None and dataclasses.is_dataclass(kind):
+        names = _FIELD_NAMES.setdefault(kind, tuple(field.name for field in dataclasses.fields(kind)))
+    if names is not None:
+        return {name: _plain(getattr(value, name)) for name in names}
     if dataclasses.is_dataclass(value) and not isinstance(value, type):
         return {f.name: _plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
     if isinstance(value, Mapping):

@@ -524,11 +524,28 @@ def _report_cache(cache: ResultCache, progress: ProgressDisplay) -> None:
                       "the next run computes them again")
 
 
+#: How a top-level ``inputs`` key starts in a results.json that :func:`reportgen.results.dumps` wrote.
+_INPUTS_KEY = '\n  "inputs": '
+
+
 def recorded_manifest(results_file: Path) -> Path | None:
-    """The manifest path (resolved at its run) that a results.json records, or None if unreadable."""
+    """The manifest path (resolved at its run) that a results.json records, or None if unreadable.
+
+    In a complete file as reportgen writes it only the ``inputs`` list is parsed (a results.json of
+    many series runs to tens of megabytes); any other file is parsed whole.
+    """
     try:
-        document = json.loads(results_file.read_text(encoding="utf-8"))
-        return Path(next(entry["path"] for entry in document["inputs"] if entry["role"] == "manifest"))
+        text = results_file.read_text(encoding="utf-8")
+        inputs: Any = None
+        start = text.find(_INPUTS_KEY)
+        if text.startswith("{\n") and text.endswith("\n}\n") and start > 0:
+            try:
+                inputs, _ = json.JSONDecoder().raw_decode(text, start + len(_INPUTS_KEY))
+            except ValueError:
+                inputs = None
+        if not isinstance(inputs, list):
+            inputs = json.loads(text)["inputs"]
+        return Path(next(entry["path"] for entry in inputs if entry["role"] == "manifest"))
     except (OSError, ValueError, KeyError, TypeError, StopIteration):
         return None
 
