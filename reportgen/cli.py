@@ -122,12 +122,13 @@ def build_parser() -> argparse.ArgumentParser:
                      metavar="CONDITION",
                      help="exit with status 1 after writing the dossier when a regression is flagged, fragile or "
                           "inconclusive (comma-separated or repeated)")
-    run.add_argument("--jobs", type=_jobs, default=None, metavar="N",
-                     help="worker processes for the statistics (default: one per core, for projects big enough to "
-                          "gain from them); 1 computes everything in this process")
-    run.add_argument("--cluster", metavar="ADDRESS",
-                     help="run the statistics on the Dask cluster of this scheduler (e.g. tcp://host:8786); "
-                          "needs reportgen[cluster]")
+    where = run.add_mutually_exclusive_group()
+    where.add_argument("--jobs", type=_jobs, default=None, metavar="N",
+                       help="worker processes for the statistics (default: one per core, for projects big enough "
+                            "to gain from them); 1 computes everything in this process")
+    where.add_argument("--cluster", metavar="ADDRESS",
+                       help="run the statistics on the Dask cluster of this scheduler (e.g. tcp://host:8786); "
+                            "needs reportgen[cluster]")
     caching = run.add_mutually_exclusive_group()
     caching.add_argument("--cache", type=Path, metavar="DIR",
                          help="reuse the results of earlier runs stored in DIR (default: $REPORTGEN_CACHE, else "

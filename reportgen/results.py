@@ -12,7 +12,7 @@ import json
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TextIO
 
 from reportgen.stats.types import OrderVerdict, RegressionAssessment
 
@@ -204,3 +204,14 @@ def results_to_dict(results: Results) -> dict[str, Any]:
 def dumps(document: Mapping[str, Any]) -> str:
     """Serialise a results document: fixed indentation, key order as built, UTF-8 text."""
     return json.dumps(document, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def dump(document: Mapping[str, Any], stream: TextIO) -> None:
+    """Write :func:`dumps`' text to ``stream`` piece by piece, never holding all of it (documents of many series)."""
+    pieces: list[str] = []
+    for piece in json.JSONEncoder(indent=2, ensure_ascii=False, allow_nan=False).iterencode(document):
+        pieces.append(piece)
+        if len(pieces) >= 65536:
+            stream.write("".join(pieces))
+            pieces.clear()
+    stream.write("".join(pieces) + "\n")

@@ -12,6 +12,7 @@ from __future__ import annotations
 import ctypes
 import dataclasses
 import errno
+import hashlib
 import json
 import os
 import shutil
@@ -53,7 +54,7 @@ from reportgen.periods import index_labels, period_label
 from reportgen.progress import Progress as ProgressDisplay
 from reportgen.progress import as_progress
 from reportgen.provenance import build_time, checksums_text, document_run_id, environment, run_id, sha256_bytes
-from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dumps, results_to_dict
+from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dump, results_to_dict
 from reportgen.sources import Column, Table, canonical_table_hash, parse_period, read_table, resolve_data_path
 from reportgen.stats.checks import check_magnitude, check_variation
 from reportgen.stats.methods import methods_text
@@ -625,7 +626,10 @@ def remove_stale_staging(out_dir: Path, started: float) -> list[str]:
 
 def write_checksums(folder: Path, names: Sequence[str]) -> Path:
     """Write ``folder/checksums.sha256`` (sha256sum format, sorted) listing the named files."""
-    digests = {name: sha256_bytes((folder / name).read_bytes()) for name in names}
+    digests: dict[str, str] = {}
+    for name in names:
+        with (folder / name).open("rb") as stream:
+            digests[name] = hashlib.file_digest(stream, "sha256").hexdigest()
     target = folder / CHECKSUMS_FILE
     target.write_text(checksums_text(digests), encoding="utf-8", newline="\n")
     return target
@@ -694,7 +698,8 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
     try:
         staging.chmod(_folder_mode())
         written = [RESULTS_FILE]
-        (staging / RESULTS_FILE).write_text(dumps(document), encoding="utf-8")
+        with (staging / RESULTS_FILE).open("w", encoding="utf-8") as stream:
+            dump(document, stream)
         if "html" in formats or "pdf" in formats:
             from reportgen.render.html import render_html
 
@@ -847,9 +852,8 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
     store = cache if isinstance(cache, ResultCache) or cache is None else ResultCache(cache)
     chosen = executor if executor is not None else open_executor(manifest, jobs, cluster)
     try:
-        results = analyse(manifest, command if command is not None else sys.argv, display, executor=chosen,
-                          cache=store)
-        document = results_to_dict(results)
+        document = results_to_dict(analyse(manifest, command if command is not None else sys.argv, display,
+                                           executor=chosen, cache=store))  # the verdicts are freed here
         document["run_id"] = document_run_id(document)
         return write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
                              progress=display, bundle=bundle, force=force, started=started, executor=chosen)

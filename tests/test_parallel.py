@@ -235,3 +235,21 @@ def test_workers_with_other_versions_are_refused() -> None:
         check_worker_versions("tcp://h:1", here, {})
     with pytest.raises(ClusterMismatchError, match=r"worker tcp://w:1 cannot run reportgen \(No module named"):
         check_worker_versions("tcp://h:1", here, {"tcp://w:1": ModuleNotFoundError("No module named 'reportgen'")})
+
+
+def test_results_json_is_written_piece_by_piece_with_the_same_bytes(small_project: Callable[..., Path],
+                                                                     tmp_path: Path) -> None:
+    """Memory: results.json is streamed to its file, never held whole; the bytes are those of ``dumps``."""
+    import io
+
+    from reportgen.manifest import load_manifest
+    from reportgen.results import dump, dumps, results_to_dict
+    from reportgen.runner import analyse
+
+    document = results_to_dict(analyse(load_manifest(small_project()), ["reportgen"]))
+    stream = io.StringIO()
+    dump(document, stream)
+    assert stream.getvalue() == dumps(document)
+    written = io.StringIO()
+    dump({"series": {f"s{number}": list(range(50)) for number in range(2000)}}, written)  # many pieces
+    assert written.getvalue() == dumps({"series": {f"s{number}": list(range(50)) for number in range(2000)}})
