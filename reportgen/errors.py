@@ -340,6 +340,38 @@ class DataUnreadableError(DataError):
     fix = "check the file's permissions"
 
 
+class DataFormatUnknownError(DataError):
+    """A data file whose suffix names no format reportgen reads, and no format declared."""
+
+    code = "data-format"
+    template = "cannot tell the format of {file} from its suffix {suffix}"
+    fix = "declare it: format: csv|parquet|excel (or rename the file to .csv, .parquet or .xlsx)"
+
+
+class SourcePackageMissingError(DataError):
+    """A data format whose reader is an optional package that is not installed."""
+
+    code = "needs-package"
+    template = "reading {file} needs the Python package {package}, which is not installed"
+    fix = "install it: python -m pip install 'reportgen[{extra}]'"
+
+
+class SheetMissingError(DataError):
+    """An Excel sheet name the workbook does not have."""
+
+    code = "sheet-missing"
+    template = "{file} has no sheet named {sheet!r}"
+    fix = "sheets in the workbook: {sheets}"
+
+
+class CellRangeError(DataError):
+    """An Excel cell range that is not of the form A3:F200."""
+
+    code = "cell-range"
+    template = "cannot read the cell range {range!r}"
+    fix = "write a range of cells with both corners, e.g. range: A3:F200"
+
+
 class DataEncodingError(DataError):
     """A data file's bytes are not UTF-8 text."""
 

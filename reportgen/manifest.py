@@ -46,6 +46,7 @@ from reportgen.errors import (
 from reportgen.formula import Formula, FormulaGrammarError, parse_formula
 from reportgen.transforms import Step
 from reportgen.vocabulary import (
+    DataFormat,
     DeterministicPolicy,
     Frequency,
     LagCriterion,
@@ -96,7 +97,8 @@ class DatasetSpec(_Model):
     """A data file: its path (relative to the manifest), its date column, optional frequency.
 
     ``missing`` is the missing-data policy of its columns (a series may override it); ``sort``
-    lets rows out of date order be sorted instead of refused.
+    lets rows out of date order be sorted instead of refused. ``format`` (csv, parquet, excel) is
+    implied by the file's suffix unless given; ``sheet`` and ``range`` pick part of a workbook.
     """
 
     path: str = Field(min_length=1)
@@ -104,6 +106,9 @@ class DatasetSpec(_Model):
     frequency: Frequency | None = None
     missing: MissingPolicy = "error"
     sort: bool = False
+    format: DataFormat | None = None
+    sheet: str | None = Field(default=None, min_length=1)
+    range: str | None = Field(default=None, min_length=1)
 
 
 class SeriesSpec(_Model):
@@ -450,6 +455,14 @@ def _cross_check(spec: ManifestSpec, locate: Any) -> tuple[list[ManifestError], 
                                                             dict[str, tuple[Step, ...]]]:
     problems: list[ManifestError] = []
     transforms: dict[str, tuple[Step, ...]] = {}
+    for name, dataset in spec.datasets.items():
+        suffix = Path(dataset.path).suffix.lower()
+        excel = dataset.format == "excel" or (dataset.format is None and suffix in {".xlsx", ".xlsm"})
+        for key in ("sheet", "range"):
+            if getattr(dataset, key) is not None and not excel:
+                problems.append(InvalidValueError(location=locate("datasets", name, key),
+                                                  problem=f"'{key}' applies to Excel workbooks only",
+                                                  remedy="remove it, or declare format: excel"))
     for name, series in spec.series.items():
         if series.dataset not in spec.datasets:
             close = difflib.get_close_matches(series.dataset, list(spec.datasets), n=1)

@@ -101,7 +101,10 @@ def load_tables(manifest: Manifest) -> dict[str, Table]:
         tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
                                   manifest.locate("datasets", name, "path"),
                                   manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort,
-                                  shown_path=str(manifest.display_path.parent / spec.path))
+                                  shown_path=str(manifest.display_path.parent / spec.path), file_format=spec.format,
+                                  sheet=spec.sheet, cells=spec.range,
+                                  sheet_where=manifest.locate("datasets", name, "sheet"),
+                                  range_where=manifest.locate("datasets", name, "range"))
     return tables
 
 

@@ -290,6 +290,59 @@ def _(p: Project) -> tuple[list[str], str]:
     return p.run(), f"{p.where('path: sim.csv')}5: error[data-empty]: datasets.sim.path: sim.csv has a header"
 
 
+@case("data-format")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.dat")
+    p.write()
+    p.data.rename(p.data.with_suffix(".dat"))
+    return p.run(), f"{p.where('path: sim.dat')}5: error[data-format]: datasets.sim.path: cannot tell the format"
+
+
+@case("needs-package")
+def _(p: Project) -> tuple[list[str], str]:
+    import importlib
+
+    p.edit("path: sim.csv", "path: sim.parquet")
+    p.write()
+    p.data.rename(p.data.with_suffix(".parquet"))
+    original = importlib.import_module
+
+    def without_pyarrow(name: str, package: str | None = None) -> object:
+        if name.startswith("pyarrow"):
+            raise ImportError(name)
+        return original(name, package)
+
+    p.monkeypatch.setattr(importlib, "import_module", without_pyarrow)
+    return p.run(), f"{p.where('path: sim.parquet')}5: error[needs-package]: datasets.sim.path: reading sim.parquet"
+
+
+def _workbook(p: Project) -> None:
+    import openpyxl
+
+    book = openpyxl.Workbook()
+    sheet = book.active
+    sheet.title = "Data"
+    for row in p.data_text.splitlines():  # type: ignore[union-attr]
+        sheet.append(row.split(","))
+    book.save(p.root / "project" / "sim.xlsx")
+
+
+@case("sheet-missing")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.xlsx\n    sheet: Daten")
+    p.write()
+    _workbook(p)
+    return p.run(), f"{p.where('sheet: Daten')}5: error[sheet-missing]: datasets.sim.sheet: sim.xlsx has no sheet"
+
+
+@case("cell-range")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.xlsx\n    range: A1-D9")
+    p.write()
+    _workbook(p)
+    return p.run(), f"{p.where('range: A1-D9')}5: error[cell-range]: datasets.sim.range: cannot read the cell range"
+
+
 @case("index-missing")
 def _(p: Project) -> tuple[list[str], str]:
     p.edit("index: month", "index: period")
