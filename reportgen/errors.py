@@ -461,6 +461,14 @@ class FrequencyMismatchError(DataError):
     fix = "declare the frequency the dates carry"
 
 
+class ConversionError(DataError):
+    """A frequency conversion that is not to a coarser frequency, or leaves no complete period."""
+
+    code = "conversion"
+    template = "{problem}"
+    fix = "{remedy}"
+
+
 class ColumnMissingError(DataError):
     """A series names a column the dataset does not have."""
 

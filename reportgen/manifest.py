@@ -46,6 +46,7 @@ from reportgen.errors import (
 from reportgen.formula import Formula, FormulaGrammarError, parse_formula
 from reportgen.transforms import Step
 from reportgen.vocabulary import (
+    Aggregation,
     DataFormat,
     DeterministicPolicy,
     Frequency,
@@ -93,12 +94,20 @@ class ProjectSpec(_Model):
     reference: str = ""
 
 
+class ConvertSpec(_Model):
+    """A conversion of a dataset to a coarser frequency: the target and how periods are combined."""
+
+    to: Frequency
+    how: Aggregation
+
+
 class DatasetSpec(_Model):
     """A data file: its path (relative to the manifest), its date column, optional frequency.
 
     ``missing`` is the missing-data policy of its columns (a series may override it); ``sort``
     lets rows out of date order be sorted instead of refused. ``format`` (csv, parquet, excel) is
     implied by the file's suffix unless given; ``sheet`` and ``range`` pick part of a workbook.
+    ``convert`` turns every column into a coarser frequency (``{to: quarterly, how: mean}``).
     """
 
     path: str = Field(min_length=1)
@@ -109,6 +118,7 @@ class DatasetSpec(_Model):
     format: DataFormat | None = None
     sheet: str | None = Field(default=None, min_length=1)
     range: str | None = Field(default=None, min_length=1)
+    convert: ConvertSpec | None = None
 
 
 class SeriesSpec(_Model):

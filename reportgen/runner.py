@@ -47,7 +47,15 @@ from reportgen.manifest import Manifest, load_manifest
 from reportgen.periods import index_labels, period_label
 from reportgen.provenance import build_time, checksums_text, document_run_id, environment, run_id, sha256_bytes
 from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dumps, results_to_dict
-from reportgen.sources import Column, Table, canonical_table_hash, parse_period, read_table, resolve_data_path
+from reportgen.sources import (
+    Column,
+    Table,
+    canonical_table_hash,
+    convert_frequency,
+    parse_period,
+    read_table,
+    resolve_data_path,
+)
 from reportgen.stats.checks import check_magnitude, check_variation
 from reportgen.stats.methods import methods_text
 from reportgen.stats.order import integration_order
@@ -116,6 +124,7 @@ class BuiltSeries:
     lineage: str
     notes: tuple[str, ...]
     column: Column
+    frequency: str  # after any conversion of the dataset
 
 
 def _too_short(manifest: Manifest, name: str) -> str:
@@ -136,10 +145,17 @@ def build_series(manifest: Manifest, tables: Mapping[str, Table]) -> dict[str, B
                          f"{period_label(raw.index[-1])}; the dataset runs from {period_label(table.periods[0])} "
                          f"to {period_label(table.periods[-1])}")
         notes.extend(column.describe())
+        frequency = table.frequency
+        conversion = manifest.spec.datasets[spec.dataset].convert
+        if conversion is not None:
+            column, note = convert_frequency(column, table.frequency, conversion.to, conversion.how,
+                                             manifest.locate("datasets", spec.dataset, "convert"))
+            raw, frequency = column.values, conversion.to
+            notes.append(note)
         steps = manifest.transforms[name]
-        values = apply_transforms(raw, steps, table.frequency, manifest.locate("series", name, "transform"))
-        built[name] = BuiltSeries(values.rename(name), lineage_of(spec.column, steps, table.frequency),
-                                  tuple(notes), column)
+        values = apply_transforms(raw, steps, frequency, manifest.locate("series", name, "transform"))
+        built[name] = BuiltSeries(values.rename(name), lineage_of(spec.column, steps, frequency),
+                                  tuple(notes), column, frequency)
     return built
 
 
@@ -214,7 +230,7 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
     tables = load_tables(manifest)
     built = build_series(manifest, tables)
     refuse_short_series(manifest, built)
-    frequencies = {name: tables[manifest.spec.series[name].dataset].frequency for name in built}
+    frequencies = {name: item.frequency for name, item in built.items()}
 
     records: dict[str, SeriesRecord] = {}
     for position, (name, item) in enumerate(built.items(), start=1):

@@ -28,6 +28,7 @@ from reportgen.errors import (
     CellRangeError,
     ColumnEmptyError,
     ColumnMissingError,
+    ConversionError,
     DataEmptyError,
     DataEncodingError,
     DataFormatUnknownError,
@@ -498,6 +499,44 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
                  frequency=frequency, frequency_source="declared" if declared else "inferred", periods=index,
                  lines=tuple(row_lines), cells={column: tuple(texts) for column, texts in cells.items()},
                  notes=tuple(notes), missing=missing, inserted=tuple(inserted), unit=unit)
+
+
+def convert_frequency(column: Column, source: str, target: str, how: str, where: Location) -> tuple[Column, str]:
+    """A column combined into the periods of a coarser frequency, complete periods only; and a sentence saying so.
+
+    A target period is kept when the column covers it from its first day to its last (the
+    column's calendar has no gaps, so every period inside is present); ``how`` combines the
+    values: the ``mean`` or ``sum`` of the periods inside, or the ``last`` or ``first`` of them.
+    Dates left out and filled by the missing-data policy are those of the source frequency.
+    """
+    if _RANK[target] >= _RANK[source]:
+        raise ConversionError(location=where, problem=f"cannot convert {source} data to {target}: the target must "
+                                                      "be a coarser frequency",
+                              remedy="convert to annual, quarterly, monthly or weekly data coarser than the source")
+    values = column.values
+    starts = values.index.to_timestamp(how="start")
+    ends = values.index.to_timestamp(how="end")
+    targets = pd.PeriodIndex([period.asfreq(_PANDAS_FREQ[target], how="end") for period in values.index])
+    first_start, last_end = starts[0], ends[-1]
+    frame = pd.DataFrame({"value": values.to_numpy(), "target": targets})
+    grouped = frame.groupby("target", sort=True)["value"]
+    combined = {"mean": grouped.mean, "sum": grouped.sum, "last": grouped.last, "first": grouped.first}[how]()
+    keep = [period for period in combined.index
+            if period.start_time >= first_start and period.end_time <= last_end]
+    dropped = [period_label(period) for period in combined.index if period not in set(keep)]
+    if not keep:
+        raise ConversionError(location=where, problem=f"converting {source} data to {target} leaves no complete "
+                                                      f"{target} period ({period_label(values.index[0])} to "
+                                                      f"{period_label(values.index[-1])})",
+                              remedy="use a longer sample or a finer target frequency")
+    index = pd.PeriodIndex(keep, freq=_PANDAS_FREQ[target])
+    converted = pd.Series(combined.loc[keep].to_numpy(dtype=float), index=index, name=values.name)
+    note = (f"converted from {source} to {target}: the {how} of the {source} values in each {target} period; "
+            f"{len(keep)} complete period(s)")
+    if dropped:
+        note += f"; incomplete period(s) left out: {_listing(dropped)}"
+    return Column(values=converted, policy=column.policy, dropped=column.dropped,
+                  interpolated=column.interpolated), note
 
 
 def resolve_data_path(base_dir: Path, relative: str, where: Location) -> Path:

@@ -412,6 +412,13 @@ def _(p: Project) -> tuple[list[str], str]:
     return p.run(), f"{p.where('path: sim.csv')}5: error[frequency-mismatch]"
 
 
+@case("conversion")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("    index: month", "    index: month\n    convert: {to: weekly, how: mean}")
+    p.write()
+    return p.run(), f"{p.where('convert:')}5: error[conversion]: datasets.sim.convert: cannot convert monthly data"
+
+
 @case("column-missing")
 def _(p: Project) -> tuple[list[str], str]:
     p.edit("column: noise", "column: noize")
