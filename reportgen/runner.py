@@ -82,6 +82,7 @@ class RunOutcome:
     out_dir: Path
     files: tuple[Path, ...]
     document: Mapping[str, Any]
+    results: Results | None = None  # the analysis behind the document (its run id is the document's)
 
 
 def _quiet(_: str) -> None:
@@ -583,5 +584,6 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
     results = analyse(manifest, command if command is not None else sys.argv, progress)
     document = results_to_dict(results)
     document["run_id"] = document_run_id(document)
-    return write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
-                         progress=progress, bundle=bundle, force=force, started=started)
+    outcome = write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
+                            progress=progress, bundle=bundle, force=force, started=started)
+    return dataclasses.replace(outcome, results=dataclasses.replace(results, run_id=document["run_id"]))
