@@ -4,7 +4,7 @@ Commands:
   reportgen run MANIFEST --out DIR [--format html,pdf|json] [--bundle] [--force] [--fail-on CONDITION]
   reportgen verify DIR_OR_BUNDLE [--recompute] [--tolerance 1e-9]
   reportgen diff OLD NEW [--html FILE] [--tolerance 1e-6] [--exit-code]
-  reportgen explain [CODE]
+  reportgen init DIR | check MANIFEST | schema | explain [CODE]
 
 Exit status (the one place it is decided):
   0  success: the run wrote its dossier; verify found everything as recorded; diff ran (with or
@@ -135,6 +135,16 @@ def build_parser() -> argparse.ArgumentParser:
                       help="exit with status 1 when there are differences (default: 0 either way)")
     diff.add_argument("--debug", action="store_true", help="show tracebacks of errors")
 
+    init = commands.add_parser("init", help="create a project folder: a commented manifest, example data, a README")
+    init.add_argument("folder", type=Path, metavar="DIR", help="a new or empty folder")
+    init.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    check = commands.add_parser("check", help="validate a manifest and its data without running the statistics")
+    check.add_argument("manifest", type=Path, help="the manifest (YAML)")
+    check.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    commands.add_parser("schema", help="print the manifest's JSON Schema (for editors)")
+
     explain = commands.add_parser("explain", help="describe an error code (as printed in error[CODE]), or list them")
     explain.add_argument("code", nargs="?", metavar="CODE", help="an error code such as non-numeric; omit to list all")
     return parser
@@ -242,6 +252,31 @@ def _diff_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
     return EXIT_CONDITION if options.exit_code and changes.rows else EXIT_OK
 
 
+def _init_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.scaffold import init_project
+
+    for path in init_project(options.folder):
+        print(f"wrote {path}")
+    print(f"next: reportgen check {options.folder / 'manifest.yaml'}")
+    return EXIT_OK
+
+
+def _check_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.preflight import check_manifest
+
+    print(check_manifest(options.manifest).text())
+    return EXIT_OK
+
+
+def _schema_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    import json
+
+    from reportgen.preflight import manifest_schema
+
+    print(json.dumps(manifest_schema(), indent=2, ensure_ascii=False))
+    return EXIT_OK
+
+
 def _explain_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
     from reportgen.errors import CATALOGUE, explain
 
@@ -262,7 +297,8 @@ def _explain_command(options: argparse.Namespace, arguments: Sequence[str]) -> i
     return EXIT_OK
 
 
-_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command, "explain": _explain_command}
+_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command, "init": _init_command,
+             "check": _check_command, "schema": _schema_command, "explain": _explain_command}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -664,6 +664,14 @@ class OutputUnwritableError(OutputError):
     fix = "choose a folder you can write to, or free disk space; the previous dossier, if any, is unchanged"
 
 
+class InitTargetError(OutputError):
+    """``reportgen init`` into a file or a folder that already holds files; nothing is overwritten."""
+
+    code = "init-target"
+    template = "cannot create a project in {path}: it is {what}"
+    fix = "name a new or empty folder"
+
+
 class PageTargetError(OutputError):
     """A file option (``diff --html``) that names a folder or a path whose folder does not exist."""
 

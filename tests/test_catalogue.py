@@ -608,6 +608,12 @@ def _(p: Project) -> tuple[list[str], str]:
                                            "No space left on device"
 
 
+@case("init-target")
+def _(p: Project) -> tuple[list[str], str]:
+    p.write()
+    return ["init", str(p.root / "project")], f"{p.root / 'project'}: error[init-target]"
+
+
 @case("page-target")
 def _(p: Project) -> tuple[list[str], str]:
     p.write()
