@@ -64,7 +64,7 @@ def _formats(text: str) -> tuple[str, ...]:
     unknown = [part for part in chosen if part not in (*FORMATS, "json")]
     if unknown or not chosen:
         raise argparse.ArgumentTypeError(
-            f"unknown format {', '.join(unknown) or '(none)'}; choose from html, pdf, json (comma-separated)")
+            f"unknown format {', '.join(unknown) or '(none)'}; choose from html, pdf, tables, json (comma-separated)")
     return tuple(part for part in chosen if part != "json")
 
 
@@ -97,9 +97,9 @@ def build_parser() -> argparse.ArgumentParser:
     run = commands.add_parser("run", help="analyse a manifest and write the dossier")
     run.add_argument("manifest", type=Path, help="the manifest (YAML)")
     run.add_argument("--out", type=Path, required=True, help="folder for results.json and the dossier")
-    run.add_argument("--format", type=_formats, default=("html", "pdf"), dest="formats",
-                     help="comma-separated outputs besides results.json: html, pdf (default both); "
-                          "'json' for results.json alone")
+    run.add_argument("--format", type=_formats, default=("html", "pdf", "tables"), dest="formats",
+                     help="comma-separated outputs besides results.json: html, pdf, tables (CSV and LaTeX files "
+                          "under DIR/tables/; default all three); 'json' for results.json alone")
     run.add_argument("--templates", type=Path, action="append", default=[],
                      help="a folder of templates searched before the packaged ones (repeatable)")
     run.add_argument("--bundle", action="store_true",

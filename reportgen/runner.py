@@ -63,12 +63,15 @@ from reportgen.stats.regression import assess_regression
 from reportgen.stats.types import RegressionAssessment, StatsSettings
 from reportgen.transforms import apply_transforms, lineage_of
 
-#: Output formats besides results.json, which is always written.
-FORMATS = ("html", "pdf")
+#: Output formats besides results.json, which is always written: the HTML and PDF dossier, and every table as
+#: CSV and LaTeX under tables/.
+FORMATS = ("html", "pdf", "tables")
 #: The file that marks a folder as a reportgen dossier.
 RESULTS_FILE = "results.json"
 #: The SHA-256 of every other file of the dossier folder (sha256sum format, sorted), written last.
 CHECKSUMS_FILE = "checksums.sha256"
+#: The folder of the tables as CSV and LaTeX files (format ``tables``).
+TABLES_FOLDER = "tables"
 #: The archive bundle, written when asked (``--bundle``).
 BUNDLE_FILE = "bundle.zip"
 
@@ -416,6 +419,8 @@ def _sync_folder(folder: Path) -> None:
         if path.is_file():
             with path.open("rb") as stream:
                 os.fsync(stream.fileno())
+        elif path.is_dir() and not path.is_symlink():
+            _sync_folder(path)
     _sync_directory(folder)
 
 
@@ -475,6 +480,12 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
                 render_pdf(html, staging / "dossier.pdf", base_dir=manifest.base_dir, created=document["created"],
                            attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=template_dirs)
                 written.append("dossier.pdf")
+        if "tables" in formats:
+            from reportgen.render.tables import write_tables
+
+            progress("writing tables")
+            tables = write_tables(document, staging / TABLES_FOLDER)
+            written += [path.relative_to(staging).as_posix() for path in tables]
         if bundle:
             from reportgen.bundle import write_bundle
 
