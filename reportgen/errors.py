@@ -356,6 +356,14 @@ class SourcePackageMissingError(DataError):
     fix = "install it: python -m pip install 'reportgen[{extra}]'"
 
 
+class SqlQueryError(DataError):
+    """A database dataset without a query, with a query that is not one SELECT, or whose query fails."""
+
+    code = "sql-query"
+    template = "{problem}"
+    fix = "{remedy}"
+
+
 class SheetMissingError(DataError):
     """An Excel sheet name the workbook does not have."""
 

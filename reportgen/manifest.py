@@ -107,7 +107,8 @@ class DatasetSpec(_Model):
     ``missing`` is the missing-data policy of its columns (a series may override it); ``sort``
     lets rows out of date order be sorted instead of refused. ``format`` (csv, parquet, excel) is
     implied by the file's suffix unless given; ``sheet`` and ``range`` pick part of a workbook.
-    ``convert`` turns every column into a coarser frequency (``{to: quarterly, how: mean}``).
+    ``convert`` turns every column into a coarser frequency (``{to: quarterly, how: mean}``);
+    ``query`` is the SELECT statement that reads an SQLite database file.
     """
 
     path: str = Field(min_length=1)
@@ -119,6 +120,7 @@ class DatasetSpec(_Model):
     sheet: str | None = Field(default=None, min_length=1)
     range: str | None = Field(default=None, min_length=1)
     convert: ConvertSpec | None = None
+    query: str | None = Field(default=None, min_length=1)
 
 
 class SeriesSpec(_Model):
@@ -473,6 +475,11 @@ def _cross_check(spec: ManifestSpec, locate: Any) -> tuple[list[ManifestError], 
                 problems.append(InvalidValueError(location=locate("datasets", name, key),
                                                   problem=f"'{key}' applies to Excel workbooks only",
                                                   remedy="remove it, or declare format: excel"))
+        database = dataset.format == "sqlite" or (dataset.format is None and suffix in {".sqlite", ".sqlite3", ".db"})
+        if dataset.query is not None and not database:
+            problems.append(InvalidValueError(location=locate("datasets", name, "query"),
+                                              problem="'query' applies to SQLite databases only",
+                                              remedy="remove it, or declare format: sqlite"))
     for name, series in spec.series.items():
         if series.dataset not in spec.datasets:
             close = difflib.get_close_matches(series.dataset, list(spec.datasets), n=1)

@@ -61,6 +61,8 @@ class DatasetRecord:
     columns: tuple[str, ...]
     table_sha256: str  # SHA-256 of the parsed table in a canonical form
     notes: tuple[str, ...] = ()
+    query: str | None = None  # the SELECT that read a database file, as written in the manifest
+    query_sha256: str | None = None  # SHA-256 of the query's UTF-8 text
 
 
 @dataclass(frozen=True, slots=True)

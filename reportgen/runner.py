@@ -116,7 +116,8 @@ def load_tables(manifest: Manifest) -> dict[str, Table]:
                                   shown_path=str(manifest.display_path.parent / spec.path), file_format=spec.format,
                                   sheet=spec.sheet, cells=spec.range,
                                   sheet_where=manifest.locate("datasets", name, "sheet"),
-                                  range_where=manifest.locate("datasets", name, "range"))
+                                  range_where=manifest.locate("datasets", name, "range"), query=spec.query,
+                                  query_where=manifest.locate("datasets", name, "query"))
     return tables
 
 
@@ -309,7 +310,9 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
             name=name, path=table.display_path, index_column=table.index_column, frequency=table.frequency,
             frequency_source=table.frequency_source, rows=len(table.periods), start=period_label(table.periods[0]),
             end=period_label(table.periods[-1]), columns=tuple(table.cells), table_sha256=canonical_table_hash(table),
-            notes=table.notes + ((outside,) if outside else ()))
+            notes=table.notes + ((outside,) if outside else ()), query=manifest.spec.datasets[name].query,
+            query_sha256=None if manifest.spec.datasets[name].query is None
+            else sha256_bytes(str(manifest.spec.datasets[name].query).encode()))
     env = environment(command, manifest.base_dir)
     settings_record = manifest.spec.settings.model_dump()
     identifier = run_id(__version__, [record.sha256 for record in inputs], settings_record, env["packages"],

@@ -49,6 +49,7 @@ from reportgen.errors import (
     RaggedRowsError,
     SheetMissingError,
     SourcePackageMissingError,
+    SqlQueryError,
 )
 from reportgen.periods import period_label
 
@@ -246,7 +247,9 @@ def _infer_frequency(kinds: set[str], dates: list[pd.Timestamp]) -> str | None:
 
 #: File formats a dataset may have, by the suffixes that imply them.
 FORMATS_BY_SUFFIX: dict[str, str] = {".csv": "csv", ".txt": "csv", ".parquet": "parquet", ".pq": "parquet",
-                                     ".xlsx": "excel", ".xlsm": "excel"}
+                                     ".xlsx": "excel", ".xlsm": "excel", ".sqlite": "sqlite", ".sqlite3": "sqlite",
+                                     ".db": "sqlite"}
+_SELECT = re.compile(r"\s*(?:--[^\n]*\n\s*|/\*.*?\*/\s*)*(select|with)\b", re.IGNORECASE | re.DOTALL)
 
 
 def data_format(display_path: str, declared: str | None, where: Location) -> str:
@@ -373,11 +376,60 @@ def _excel_rows(raw: bytes, display_path: str, sheet: str | None, cells: str | N
     return rows, numbers
 
 
+def _sqlite_rows(raw: bytes, display_path: str, query: str | None, where: Location,
+                 query_where: Location) -> tuple[list[list[str]], list[int]]:
+    """The rows a SELECT query returns from an SQLite database file, through SQLAlchemy, read-only.
+
+    The query runs on a private copy of the bytes that were hashed (so the hash and the rows agree),
+    with an authorizer that allows reading only: no ATTACH (another file), no PRAGMA, no writes.
+    Row 1 is the header (the result's column names); the result's order is the file's row order.
+    """
+    if query is None:
+        raise SqlQueryError(location=where, problem=f"{display_path} is an SQLite database; say what to read",
+                            remedy="add query: \"SELECT month, sales FROM ledger ORDER BY month\" to the dataset")
+    if not _SELECT.match(query) or query.strip().rstrip(";").count(";"):
+        raise SqlQueryError(location=query_where, problem="the query must be one SELECT (or WITH ... SELECT) "
+                                                          "statement", remedy="remove other statements")
+    sqlalchemy = _needs("sqlalchemy", "sql", display_path, where)
+    import sqlite3
+    import tempfile
+
+    allowed = {sqlite3.SQLITE_SELECT, sqlite3.SQLITE_READ, sqlite3.SQLITE_FUNCTION}
+    recursive = getattr(sqlite3, "SQLITE_RECURSIVE", None)
+    if recursive is not None:
+        allowed.add(recursive)
+
+    def authorize(action: int, *_: object) -> int:
+        return sqlite3.SQLITE_OK if action in allowed else sqlite3.SQLITE_DENY
+
+    with tempfile.TemporaryDirectory(prefix="reportgen-sqlite-") as folder:
+        copy = Path(folder) / "snapshot.sqlite"
+        copy.write_bytes(raw)
+        engine = sqlalchemy.create_engine(f"sqlite:///file:{copy}?mode=ro&uri=true")  # type: ignore[attr-defined]
+        try:
+            with engine.connect() as connection:
+                connection.connection.driver_connection.set_authorizer(authorize)
+                result = connection.execute(sqlalchemy.text(query))  # type: ignore[attr-defined]
+                names = result.keys()
+                header = [str(column) for column in names]
+                records = [[_cell_text(value) for value in record] for record in result]
+        except sqlalchemy.exc.SQLAlchemyError as error:  # type: ignore[attr-defined]
+            reason = str(getattr(error, "orig", None) or error).splitlines()[0]
+            raise SqlQueryError(location=query_where, problem=f"the query on {display_path} failed: {reason}",
+                                remedy="check the table and column names (the database is opened read-only)"
+                                ) from None
+        finally:
+            engine.dispose()
+    rows = [header, *records]
+    return rows, list(range(1, len(rows) + 1))
+
+
 def read_table(name: str, path: Path, display_path: str, index_column: str, declared: str | None,
                where: Location, index_where: Location, *, missing: str = "error", sort: bool = False,
                shown_path: str | None = None, file_format: str | None = None, sheet: str | None = None,
                cells: str | None = None, sheet_where: Location | None = None,
-               range_where: Location | None = None) -> Table:
+               range_where: Location | None = None, query: str | None = None,
+               query_where: Location | None = None) -> Table:
     """Read a dataset (CSV, Parquet or an Excel sheet); every problem raises a catalogue error naming file, line, value.
 
     ``missing`` is the dataset's missing-data policy: with ``interpolate`` a period of the
@@ -402,6 +454,9 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     if kind == "parquet":
         rows, numbers = _parquet_rows(raw, display_path, where)
         unit = "row"
+    elif kind == "sqlite":
+        rows, numbers = _sqlite_rows(raw, display_path, query, where, query_where or where)
+        unit = "result row"
     elif kind == "excel":
         rows, numbers = _excel_rows(raw, display_path, sheet, cells, where, sheet_where or where,
                                     range_where or where)

@@ -27,7 +27,7 @@ MissingPolicy = Literal["error", "drop-leading-trailing", "interpolate"]
 #: the dossier with its order undetermined and its regressions inconclusive.
 TooShortPolicy = Literal["error", "report"]
 #: File formats a dataset may have (implied by the file's suffix unless declared).
-DataFormat = Literal["csv", "parquet", "excel"]
+DataFormat = Literal["csv", "parquet", "excel", "sqlite"]
 #: How a dataset's periods are combined into the periods of a coarser frequency.
 Aggregation = Literal["mean", "sum", "last", "first"]
 #: Significance levels reportgen accepts (the levels the critical-value tables carry).

@@ -327,6 +327,20 @@ def _workbook(p: Project) -> None:
     book.save(p.root / "project" / "sim.xlsx")
 
 
+@case("sql-query")
+def _(p: Project) -> tuple[list[str], str]:
+    import sqlite3
+
+    p.write()
+    connection = sqlite3.connect(p.root / "project" / "sim.sqlite")
+    connection.execute("CREATE TABLE sim (month TEXT, walk_a REAL, walk_b REAL, noise REAL)")
+    connection.commit()
+    connection.close()
+    p.edit("path: sim.csv", 'path: sim.sqlite\n    query: "DROP TABLE sim"')
+    p.write()
+    return p.run(), f"{p.where('DROP TABLE')}5: error[sql-query]: datasets.sim.query: the query must be one SELECT"
+
+
 @case("sheet-missing")
 def _(p: Project) -> tuple[list[str], str]:
     p.edit("path: sim.csv", "path: sim.xlsx\n    sheet: Daten")
