@@ -5,7 +5,7 @@ Commands:
                 [--jobs N | --cluster ADDRESS] [--cache DIR | --no-cache] [--quiet]
   reportgen verify DIR_OR_BUNDLE [--recompute] [--tolerance 1e-9]
   reportgen diff OLD NEW [--html FILE] [--tolerance 1e-6] [--exit-code]
-  reportgen explain [CODE]
+  reportgen init DIR | check MANIFEST | schema | explain [CODE]
 
 Exit status (the one place it is decided):
   0  success: the run wrote its dossier; verify found everything as recorded; diff ran (with or
@@ -65,7 +65,7 @@ def _formats(text: str) -> tuple[str, ...]:
     unknown = [part for part in chosen if part not in (*FORMATS, "json")]
     if unknown or not chosen:
         raise argparse.ArgumentTypeError(
-            f"unknown format {', '.join(unknown) or '(none)'}; choose from html, pdf, json (comma-separated)")
+            f"unknown format {', '.join(unknown) or '(none)'}; choose from html, pdf, tables, json (comma-separated)")
     return tuple(part for part in chosen if part != "json")
 
 
@@ -108,9 +108,9 @@ def build_parser() -> argparse.ArgumentParser:
     run = commands.add_parser("run", help="analyse a manifest and write the dossier")
     run.add_argument("manifest", type=Path, help="the manifest (YAML)")
     run.add_argument("--out", type=Path, required=True, help="folder for results.json and the dossier")
-    run.add_argument("--format", type=_formats, default=("html", "pdf"), dest="formats",
-                     help="comma-separated outputs besides results.json: html, pdf (default both); "
-                          "'json' for results.json alone")
+    run.add_argument("--format", type=_formats, default=("html", "pdf", "tables"), dest="formats",
+                     help="comma-separated outputs besides results.json: html, pdf, tables (CSV and LaTeX files "
+                          "under DIR/tables/; default all three); 'json' for results.json alone")
     run.add_argument("--templates", type=Path, action="append", default=[],
                      help="a folder of templates searched before the packaged ones (repeatable)")
     run.add_argument("--bundle", action="store_true",
@@ -158,6 +158,16 @@ def build_parser() -> argparse.ArgumentParser:
     diff.add_argument("--exit-code", action="store_true", dest="exit_code",
                       help="exit with status 1 when there are differences (default: 0 either way)")
     diff.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    init = commands.add_parser("init", help="create a project folder: a commented manifest, example data, a README")
+    init.add_argument("folder", type=Path, metavar="DIR", help="a new or empty folder")
+    init.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    check = commands.add_parser("check", help="validate a manifest and its data without running the statistics")
+    check.add_argument("manifest", type=Path, help="the manifest (YAML)")
+    check.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    commands.add_parser("schema", help="print the manifest's JSON Schema (for editors)")
 
     explain = commands.add_parser("explain", help="describe an error code (as printed in error[CODE]), or list them")
     explain.add_argument("code", nargs="?", metavar="CODE", help="an error code such as non-numeric; omit to list all")
@@ -305,6 +315,31 @@ def _diff_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
     return EXIT_CONDITION if options.exit_code and changes.rows else EXIT_OK
 
 
+def _init_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.scaffold import init_project
+
+    for path in init_project(options.folder):
+        print(f"wrote {path}")
+    print(f"next: reportgen check {options.folder / 'manifest.yaml'}")
+    return EXIT_OK
+
+
+def _check_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.preflight import check_manifest
+
+    print(check_manifest(options.manifest).text())
+    return EXIT_OK
+
+
+def _schema_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    import json
+
+    from reportgen.preflight import manifest_schema
+
+    print(json.dumps(manifest_schema(), indent=2, ensure_ascii=False))
+    return EXIT_OK
+
+
 def _explain_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
     from reportgen.errors import CATALOGUE, explain
 
@@ -325,7 +360,8 @@ def _explain_command(options: argparse.Namespace, arguments: Sequence[str]) -> i
     return EXIT_OK
 
 
-_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command, "explain": _explain_command}
+_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command, "init": _init_command,
+             "check": _check_command, "schema": _schema_command, "explain": _explain_command}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -340,6 +340,46 @@ class DataUnreadableError(DataError):
     fix = "check the file's permissions"
 
 
+class DataFormatUnknownError(DataError):
+    """A data file whose suffix names no format reportgen reads, and no format declared."""
+
+    code = "data-format"
+    template = "cannot tell the format of {file} from its suffix {suffix}"
+    fix = "declare it: format: csv|parquet|excel (or rename the file to .csv, .parquet or .xlsx)"
+
+
+class SourcePackageMissingError(DataError):
+    """A data format whose reader is an optional package that is not installed."""
+
+    code = "needs-package"
+    template = "reading {file} needs the Python package {package}, which is not installed"
+    fix = "install it: python -m pip install 'reportgen[{extra}]'"
+
+
+class SqlQueryError(DataError):
+    """A database dataset without a query, with a query that is not one SELECT, or whose query fails."""
+
+    code = "sql-query"
+    template = "{problem}"
+    fix = "{remedy}"
+
+
+class SheetMissingError(DataError):
+    """An Excel sheet name the workbook does not have."""
+
+    code = "sheet-missing"
+    template = "{file} has no sheet named {sheet!r}"
+    fix = "sheets in the workbook: {sheets}"
+
+
+class CellRangeError(DataError):
+    """An Excel cell range that is not of the form A3:F200."""
+
+    code = "cell-range"
+    template = "cannot read the cell range {range!r}"
+    fix = "write a range of cells with both corners, e.g. range: A3:F200"
+
+
 class DataEncodingError(DataError):
     """A data file's bytes are not UTF-8 text."""
 
@@ -427,6 +467,14 @@ class FrequencyMismatchError(DataError):
     code = "frequency-mismatch"
     template = "{file} is declared {frequency} but has {form} date labels"
     fix = "declare the frequency the dates carry"
+
+
+class ConversionError(DataError):
+    """A frequency conversion that is not to a coarser frequency, or leaves no complete period."""
+
+    code = "conversion"
+    template = "{problem}"
+    fix = "{remedy}"
 
 
 class ColumnMissingError(DataError):
@@ -622,6 +670,14 @@ class OutputUnwritableError(OutputError):
     code = "output-unwritable"
     template = "cannot write the output to {path}: {reason}"
     fix = "choose a folder you can write to, or free disk space; the previous dossier, if any, is unchanged"
+
+
+class InitTargetError(OutputError):
+    """``reportgen init`` into a file or a folder that already holds files; nothing is overwritten."""
+
+    code = "init-target"
+    template = "cannot create a project in {path}: it is {what}"
+    fix = "name a new or empty folder"
 
 
 class PageTargetError(OutputError):

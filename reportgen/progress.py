@@ -27,7 +27,7 @@ from typing import Protocol, TextIO, runtime_checkable
 
 #: The stages of a run, in the order they happen (names as shown).
 STAGES: tuple[str, ...] = ("reading data", "order of integration", "regressions", "charts", "HTML", "PDF",
-                           "bundle")
+                           "tables", "bundle")
 
 
 @runtime_checkable

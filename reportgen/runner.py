@@ -55,7 +55,15 @@ from reportgen.progress import Progress as ProgressDisplay
 from reportgen.progress import as_progress
 from reportgen.provenance import build_time, checksums_text, document_run_id, environment, run_id, sha256_bytes
 from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dump, results_to_dict
-from reportgen.sources import Column, Table, canonical_table_hash, parse_period, read_table, resolve_data_path
+from reportgen.sources import (
+    Column,
+    Table,
+    canonical_table_hash,
+    convert_frequency,
+    parse_period,
+    read_table,
+    resolve_data_path,
+)
 from reportgen.stats.checks import check_magnitude, check_variation
 from reportgen.stats.methods import methods_text
 from reportgen.stats.order import integration_order
@@ -63,12 +71,15 @@ from reportgen.stats.regression import assess_regression
 from reportgen.stats.types import OrderVerdict, RegressionAssessment, StatsSettings
 from reportgen.transforms import apply_transforms, lineage_of
 
-#: Output formats besides results.json, which is always written.
-FORMATS = ("html", "pdf")
+#: Output formats besides results.json, which is always written: the HTML and PDF dossier, and every table as
+#: CSV and LaTeX under tables/.
+FORMATS = ("html", "pdf", "tables")
 #: The file that marks a folder as a reportgen dossier.
 RESULTS_FILE = "results.json"
 #: The SHA-256 of every other file of the dossier folder (sha256sum format, sorted), written last.
 CHECKSUMS_FILE = "checksums.sha256"
+#: The folder of the tables as CSV and LaTeX files (format ``tables``).
+TABLES_FOLDER = "tables"
 #: The archive bundle, written when asked (``--bundle``).
 BUNDLE_FILE = "bundle.zip"
 #: Settings that choose where the statistics run, not what they compute: not recorded in results.json.
@@ -85,6 +96,7 @@ class RunOutcome:
     out_dir: Path
     files: tuple[Path, ...]
     document: Mapping[str, Any]
+    results: Results | None = None  # the analysis behind the document (its run id is the document's)
 
 
 def outside_project(manifest: Manifest, relative: str) -> str | None:
@@ -108,7 +120,11 @@ def load_tables(manifest: Manifest) -> dict[str, Table]:
         tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
                                   manifest.locate("datasets", name, "path"),
                                   manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort,
-                                  shown_path=str(manifest.display_path.parent / spec.path))
+                                  shown_path=str(manifest.display_path.parent / spec.path), file_format=spec.format,
+                                  sheet=spec.sheet, cells=spec.range,
+                                  sheet_where=manifest.locate("datasets", name, "sheet"),
+                                  range_where=manifest.locate("datasets", name, "range"), query=spec.query,
+                                  query_where=manifest.locate("datasets", name, "query"))
     return tables
 
 
@@ -120,6 +136,7 @@ class BuiltSeries:
     lineage: str
     notes: tuple[str, ...]
     column: Column
+    frequency: str  # after any conversion of the dataset
 
 
 def _too_short(manifest: Manifest, name: str) -> str:
@@ -140,10 +157,17 @@ def build_series(manifest: Manifest, tables: Mapping[str, Table]) -> dict[str, B
                          f"{period_label(raw.index[-1])}; the dataset runs from {period_label(table.periods[0])} "
                          f"to {period_label(table.periods[-1])}")
         notes.extend(column.describe())
+        frequency = table.frequency
+        conversion = manifest.spec.datasets[spec.dataset].convert
+        if conversion is not None:
+            column, note = convert_frequency(column, table.frequency, conversion.to, conversion.how,
+                                             manifest.locate("datasets", spec.dataset, "convert"))
+            raw, frequency = column.values, conversion.to
+            notes.append(note)
         steps = manifest.transforms[name]
-        values = apply_transforms(raw, steps, table.frequency, manifest.locate("series", name, "transform"))
-        built[name] = BuiltSeries(values.rename(name), lineage_of(spec.column, steps, table.frequency),
-                                  tuple(notes), column)
+        values = apply_transforms(raw, steps, frequency, manifest.locate("series", name, "transform"))
+        built[name] = BuiltSeries(values.rename(name), lineage_of(spec.column, steps, frequency),
+                                  tuple(notes), column, frequency)
     return built
 
 
@@ -389,7 +413,7 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = Non
     tables = load_tables(manifest)
     built = build_series(manifest, tables)
     refuse_short_series(manifest, built)
-    frequencies = {name: tables[manifest.spec.series[name].dataset].frequency for name in built}
+    frequencies = {name: item.frequency for name, item in built.items()}
     display.finish("reading data")
 
     order_tasks = [OrderTask(name, item.values.to_numpy(dtype=float), item.values.index, settings,
@@ -433,7 +457,9 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = Non
             name=name, path=table.display_path, index_column=table.index_column, frequency=table.frequency,
             frequency_source=table.frequency_source, rows=len(table.periods), start=period_label(table.periods[0]),
             end=period_label(table.periods[-1]), columns=tuple(table.cells), table_sha256=canonical_table_hash(table),
-            notes=table.notes + ((outside,) if outside else ()))
+            notes=table.notes + ((outside,) if outside else ()), query=manifest.spec.datasets[name].query,
+            query_sha256=None if manifest.spec.datasets[name].query is None
+            else sha256_bytes(str(manifest.spec.datasets[name].query).encode()))
     env = environment(command, manifest.base_dir)
     settings_record = manifest.spec.settings.model_dump(exclude=EXECUTION_SETTINGS)
     identifier = run_id(__version__, [record.sha256 for record in inputs], settings_record, env["packages"],
@@ -641,6 +667,8 @@ def _sync_folder(folder: Path) -> None:
         if path.is_file():
             with path.open("rb") as stream:
                 os.fsync(stream.fileno())
+        elif path.is_dir() and not path.is_symlink():
+            _sync_folder(path)
     _sync_directory(folder)
 
 
@@ -720,6 +748,13 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
                            attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=template_dirs)
                 display.finish("PDF")
                 written.append("dossier.pdf")
+        if "tables" in formats:
+            from reportgen.render.tables import write_tables
+
+            display.start("tables")
+            tables = write_tables(document, staging / TABLES_FOLDER)
+            display.finish("tables")
+            written += [path.relative_to(staging).as_posix() for path in tables]
         if bundle:
             from reportgen.bundle import write_bundle
 
@@ -852,11 +887,13 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
     store = cache if isinstance(cache, ResultCache) or cache is None else ResultCache(cache)
     chosen = executor if executor is not None else open_executor(manifest, jobs, cluster)
     try:
-        document = results_to_dict(analyse(manifest, command if command is not None else sys.argv, display,
-                                           executor=chosen, cache=store))  # the verdicts are freed here
+        results = analyse(manifest, command if command is not None else sys.argv, display, executor=chosen,
+                          cache=store)
+        document = results_to_dict(results)
         document["run_id"] = document_run_id(document)
-        return write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
-                             progress=display, bundle=bundle, force=force, started=started, executor=chosen)
+        outcome = write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
+                                progress=display, bundle=bundle, force=force, started=started, executor=chosen)
     finally:
         if executor is None:
             chosen.close()
+    return dataclasses.replace(outcome, results=dataclasses.replace(results, run_id=document["run_id"]))

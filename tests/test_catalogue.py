@@ -291,6 +291,73 @@ def _(p: Project) -> tuple[list[str], str]:
     return p.run(), f"{p.where('path: sim.csv')}5: error[data-empty]: datasets.sim.path: sim.csv has a header"
 
 
+@case("data-format")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.dat")
+    p.write()
+    p.data.rename(p.data.with_suffix(".dat"))
+    return p.run(), f"{p.where('path: sim.dat')}5: error[data-format]: datasets.sim.path: cannot tell the format"
+
+
+@case("needs-package")
+def _(p: Project) -> tuple[list[str], str]:
+    import importlib
+
+    p.edit("path: sim.csv", "path: sim.parquet")
+    p.write()
+    p.data.rename(p.data.with_suffix(".parquet"))
+    original = importlib.import_module
+
+    def without_pyarrow(name: str, package: str | None = None) -> object:
+        if name.startswith("pyarrow"):
+            raise ImportError(name)
+        return original(name, package)
+
+    p.monkeypatch.setattr(importlib, "import_module", without_pyarrow)
+    return p.run(), f"{p.where('path: sim.parquet')}5: error[needs-package]: datasets.sim.path: reading sim.parquet"
+
+
+def _workbook(p: Project) -> None:
+    import openpyxl
+
+    book = openpyxl.Workbook()
+    sheet = book.active
+    sheet.title = "Data"
+    for row in p.data_text.splitlines():  # type: ignore[union-attr]
+        sheet.append(row.split(","))
+    book.save(p.root / "project" / "sim.xlsx")
+
+
+@case("sql-query")
+def _(p: Project) -> tuple[list[str], str]:
+    import sqlite3
+
+    p.write()
+    connection = sqlite3.connect(p.root / "project" / "sim.sqlite")
+    connection.execute("CREATE TABLE sim (month TEXT, walk_a REAL, walk_b REAL, noise REAL)")
+    connection.commit()
+    connection.close()
+    p.edit("path: sim.csv", 'path: sim.sqlite\n    query: "DROP TABLE sim"')
+    p.write()
+    return p.run(), f"{p.where('DROP TABLE')}5: error[sql-query]: datasets.sim.query: the query must be one SELECT"
+
+
+@case("sheet-missing")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.xlsx\n    sheet: Daten")
+    p.write()
+    _workbook(p)
+    return p.run(), f"{p.where('sheet: Daten')}5: error[sheet-missing]: datasets.sim.sheet: sim.xlsx has no sheet"
+
+
+@case("cell-range")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.xlsx\n    range: A1-D9")
+    p.write()
+    _workbook(p)
+    return p.run(), f"{p.where('range: A1-D9')}5: error[cell-range]: datasets.sim.range: cannot read the cell range"
+
+
 @case("index-missing")
 def _(p: Project) -> tuple[list[str], str]:
     p.edit("index: month", "index: period")
@@ -358,6 +425,13 @@ def _(p: Project) -> tuple[list[str], str]:
     p.data_text = _csv([f"{2000 + i},{i},{i},1" for i in range(40)])
     p.write()
     return p.run(), f"{p.where('path: sim.csv')}5: error[frequency-mismatch]"
+
+
+@case("conversion")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("    index: month", "    index: month\n    convert: {to: weekly, how: mean}")
+    p.write()
+    return p.run(), f"{p.where('convert:')}5: error[conversion]: datasets.sim.convert: cannot convert monthly data"
 
 
 @case("column-missing")
@@ -547,6 +621,12 @@ def _(p: Project) -> tuple[list[str], str]:
     p.monkeypatch.setattr("tempfile.mkdtemp", _oserror(errno.ENOSPC))
     return [*p.run(), "--format", "json"], f"{p.out}: error[output-unwritable]: cannot write the output to {p.out}: " \
                                            "No space left on device"
+
+
+@case("init-target")
+def _(p: Project) -> tuple[list[str], str]:
+    p.write()
+    return ["init", str(p.root / "project")], f"{p.root / 'project'}: error[init-target]"
 
 
 @case("page-target")
