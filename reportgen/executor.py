@@ -43,7 +43,7 @@ CLUSTER_CONNECT_TIMEOUT = 10.0
 #: Environment variables that cap the threads of BLAS and OpenMP libraries loaded after they are set.
 THREAD_VARIABLES = ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "BLIS_NUM_THREADS",
                     "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
-#: Packages whose versions must agree between this machine and a cluster's workers.
+#: Packages whose versions must agree between this machine and a cluster's workers (with Python and reportgen).
 CHECKED_PACKAGES = ("numpy", "pandas", "scipy", "statsmodels", "arch")
 
 Done = Callable[[int, Any], None]
@@ -228,12 +228,18 @@ def _import_distributed() -> Any:
 
 
 def local_versions() -> dict[str, str]:
-    """This process's versions of Python, reportgen and the numerical packages (see :data:`CHECKED_PACKAGES`)."""
+    """This process's versions of Python, reportgen (and its source) and the numerical packages.
+
+    The source is the SHA-256 of reportgen's own files (its first 16 digits), so that two copies
+    of one version that were edited differently are told apart.
+    """
     import importlib.metadata
 
     from reportgen import __version__
+    from reportgen.cache import software_fingerprint
 
-    versions = {"python": ".".join(platform.python_version_tuple()[:2]), "reportgen": __version__}
+    versions = {"python": ".".join(platform.python_version_tuple()[:2]), "reportgen": __version__,
+                "reportgen source": str(software_fingerprint()["source"])[:16]}
     for name in CHECKED_PACKAGES:
         try:
             versions[name] = importlib.metadata.version(name)

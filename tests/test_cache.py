@@ -189,8 +189,13 @@ def test_keys_cover_the_software(monkeypatch: pytest.MonkeyPatch) -> None:
     assert content_key("order", material) != key
 
 
-def test_outcomes_rebuild_exactly_from_their_entries(small_project: Callable[..., Path]) -> None:
-    results = analyse(load_manifest(small_project()), ["reportgen"])
+DEMO = Path(__file__).resolve().parent.parent / "manifests" / "demo.yaml"
+
+
+@pytest.mark.parametrize("project", ["small", "demo"])
+def test_outcomes_rebuild_exactly_from_their_entries(project: str, small_project: Callable[..., Path]) -> None:
+    """Every verdict and assessment (cointegrated, error-correction, Johansen, bounds test...) survives the cache."""
+    results = analyse(load_manifest(small_project() if project == "small" else DEMO), ["reportgen"])
     for record in results.series.values():
         outcome = OrderOutcome(record.verdict, ("UserWarning: kept",))
         assert decode(OrderOutcome, json.loads(json.dumps(encode(outcome)))) == outcome
