@@ -23,11 +23,14 @@ enough conditioned for them, and Householder QR otherwise:
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Final
 
 import numpy as np
 import scipy.linalg
+from threadpoolctl import threadpool_limits
 
 __all__ = [
     "CHOLESKY_CONDITION_LIMIT",
@@ -36,6 +39,7 @@ __all__ = [
     "NestedFit",
     "nested_least_squares",
     "orthonormal_factor",
+    "single_threaded_blas",
 ]
 
 #: From this many observations on, CholeskyQR2 is tried before Householder QR.
@@ -211,3 +215,24 @@ def nested_least_squares(design: np.ndarray, response: np.ndarray) -> NestedFit:
         if fit is not None:
             return fit
     return _by_qr(scaled, response)
+
+
+@contextmanager
+def single_threaded_blas() -> Iterator[None]:
+    """Run the enclosed block with every BLAS and OpenMP thread pool limited to one thread.
+
+    reportgen's least squares works on many small matrices, where a multi-threaded BLAS spends
+    more time waking and synchronising threads than computing; with several worker processes each
+    running a battery, the pools also compete for the same cores (on two busy cores a battery took
+    five to twenty times longer with OpenBLAS' default two threads). Wrap bulk work in this block,
+    once per worker: ``with single_threaded_blas(): ...`` (entering costs about a millisecond). The
+    previous limits are restored on exit. The engine's own reductions never use BLAS threads; a BLAS
+    or LAPACK call may round differently with another number of threads, so runs that must agree to
+    the last bit should use the same setting.
+
+    Uses threadpoolctl, which changes the limits of the BLAS libraries already loaded (numpy's and
+    scipy's OpenBLAS) at run time; environment variables such as ``OPENBLAS_NUM_THREADS`` only act
+    when set before numpy is first imported.
+    """
+    with threadpool_limits(limits=1):
+        yield

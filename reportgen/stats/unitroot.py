@@ -1,13 +1,15 @@
 """Unit-root and stationarity tests, each returning a frozen :class:`TestResult`.
 
-KPSS comes from statsmodels (``kpss``), and so does the ADF statistic below 10,000 observations
-(``adfuller`` with the lag fixed); Phillips-Perron, DF-GLS and Zivot-Andrews are computed here from
-least-squares regressions (below 10,000 observations statsmodels' ``adfuller`` runs the DF-GLS
-regression). Every lag search
-(ADF, DF-GLS, Zivot-Andrews) applies ``adfuller``'s ``autolag`` rule to all candidates from one
-factorisation (:func:`adf_lag_search`); ``adfuller`` refits each candidate, which takes minutes
-on 100,000 observations. This module pins the choices the libraries leave open or make
-differently from reportgen, and reports them in the result:
+The arithmetic is reportgen's own (:mod:`reportgen.stats.engine`, the same functions a simulation
+runs on a block of series at once): ADF and DF-GLS regressions and their lag searches from one
+factorisation of the regression's cross products, Phillips-Perron and KPSS from explicit
+residuals, MacKinnon's p-value surface evaluated as statsmodels evaluates it. statsmodels and arch
+are the references the tests compare with (and statsmodels supplies the published tables); none
+of their estimators runs here. Every lag search (ADF, DF-GLS, Zivot-Andrews) applies
+``adfuller``'s ``autolag`` rule to all candidates from one factorisation (:func:`adf_lag_search`);
+``adfuller`` refits each candidate, which takes minutes on 100,000 observations. This module pins
+the choices the libraries leave open or make differently from reportgen, and reports them in the
+result:
 
 * the maximum lag follows Schwert (1989) rounded *down*, ``int(12 (T/100)^(1/4))``
   (statsmodels and arch round up), reduced when the regression would otherwise be infeasible;
@@ -25,11 +27,9 @@ differently from reportgen, and reports them in the result:
   (:data:`~reportgen.stats.checks.VARIATION_LIMIT`), and so is an ADF-type regression that is
   singular, fits exactly or has no residual degree of freedom: each has no t-statistic.
 
-Long series: from :data:`~reportgen.stats.numerics.LARGE_SAMPLE` observations on, the ADF and
-DF-GLS statistics are read off reportgen's own factorisation of the regression instead of
-statsmodels' pseudo-inverse (the same number to about 1e-10), and the Zivot-Andrews break search
-is an exact rank update (:func:`_za_search`) rather than one regression per candidate break, so
-the whole battery on 100,000 observations takes seconds.
+Long series: the ADF-type regressions cost ``O(T p)`` however long the series, and the
+Zivot-Andrews break search is an exact rank update (:func:`_za_search`) rather than one regression
+per candidate break, so the whole battery on 100,000 observations takes seconds.
 
 Rescaling a series (multiplying it by a positive or negative constant) leaves every statistic,
 lag choice and bandwidth unchanged. To keep that true in floating point as well, each series is
@@ -50,17 +50,15 @@ from typing import Final
 
 import numpy as np
 import pandas as pd
-from statsmodels.regression.linear_model import OLS
-from statsmodels.tsa.adfvalues import _tau_maxs, _tau_mins, mackinnoncrit, mackinnonp
-from statsmodels.tsa.stattools import adfuller
-from statsmodels.tsa.stattools import kpss as statsmodels_kpss
+from statsmodels.tools.sm_exceptions import InterpolationWarning
 from statsmodels.tsa.stattools import zivot_andrews as _statsmodels_zivot_andrews
 
 from reportgen.errors import SampleTooShortError, StatsInputError
 from reportgen.periods import period_label
+from reportgen.stats import engine
 from reportgen.stats.capture import warning_texts
 from reportgen.stats.checks import VARIATION_LIMIT, relative_spread
-from reportgen.stats.numerics import LARGE_SAMPLE, NestedFit, nested_least_squares, orthonormal_factor
+from reportgen.stats.numerics import LARGE_SAMPLE, _by_qr, _column_scaled, orthonormal_factor
 from reportgen.stats.types import TestResult
 from reportgen.vocabulary import Deterministic
 
@@ -98,20 +96,14 @@ TERMS_TEXT: Final[dict[str, str]] = {
 ADF_CRITERIA: Final[dict[str, str]] = {"aic": "AIC", "bic": "BIC", "t-stat": "t-stat", "fixed": "fixed"}
 #: Significance levels of KPSS (1992) Table 1, keyed by the table's column labels.
 _KPSS_LEVELS: Final[dict[float, str]] = {0.10: "10%", 0.05: "5%", 0.025: "2.5%", 0.01: "1%"}
+#: Kwiatkowski, Phillips, Schmidt and Shin (1992), Table 1, asymptotic critical values (10% to 1%).
+_KPSS_1992: Final[dict[str, dict[str, float]]] = engine.KPSS_TABLE
 #: Significance levels of the three-column tables (DF-GLS, Zivot-Andrews), keyed by column label.
 _TABLE_LEVELS: Final[dict[float, str]] = {0.01: "1%", 0.05: "5%", 0.10: "10%"}
 _MACKINNON_PVALUE_SOURCE: Final[str] = "MacKinnon (1994) response surface; a bound beyond its range"
 
-#: Elliott, Rothenberg and Stock (1996), Table I, DF-GLS with constant and trend (1%, 5%, 10%), by
-#: sample size; ``math.inf`` is the asymptotic row. Transcribed from memory (REFERENCES.md section 6).
-_ERS_TREND_TABLE: Final[dict[float, tuple[float, float, float]]] = {
-    50.0: (-3.77, -3.19, -2.89),
-    100.0: (-3.58, -3.03, -2.74),
-    200.0: (-3.46, -2.93, -2.64),
-    math.inf: (-3.48, -2.89, -2.57),
-}
 #: Local-to-unity parameter c-bar of the GLS quasi-differences (Elliott, Rothenberg and Stock 1996).
-DFGLS_CBAR: Final[dict[str, float]] = {"constant": -7.0, "constant-trend": -13.5}
+DFGLS_CBAR: Final[dict[str, float]] = engine.DFGLS_CBAR
 #: Zivot and Andrews (1992), asymptotic critical values for trim 0.15, from memory
 #: (REFERENCES.md section 6): model A (break in the intercept) and model C (intercept and trend).
 _ZA_1992: Final[dict[str, dict[str, float]]] = {
@@ -222,23 +214,30 @@ def _mackinnon_pvalue(statistic: float, regression: str) -> tuple[float, str | N
     """MacKinnon's (1994) p-value of a Dickey-Fuller t-statistic, a bound beyond the surface's range.
 
     Returns the p-value, the bound (``"<"``, ``">"`` or ``None``) and a note for the result when the
-    value is a bound.
+    value is a bound. The surface is evaluated as statsmodels' ``mackinnonp`` evaluates it
+    (:func:`~reportgen.stats.engine.mackinnon_pvalues`).
     """
-    tau_min = float(_tau_mins[regression][0])
-    tau_max = float(_tau_maxs[regression][0])
-    if statistic < tau_min:
-        pvalue = float(mackinnonp(tau_min, regression=regression, N=1))
+    values, bounds = engine.mackinnon_pvalues(np.array([statistic]), regression)
+    pvalue, bound = float(values[0]), int(bounds[0])
+    if bound < 0:
+        edge = float(engine._tau_mins[regression][0])
         return pvalue, "<", (
             f"statistic {statistic:.4g} lies below the range of the MacKinnon (1994) p-value surface "
-            f"(which ends at {tau_min:g}); the p-value is smaller than {pvalue:.3g}, its value there"
+            f"(which ends at {edge:g}); the p-value is smaller than {pvalue:.3g}, its value there"
         )
-    if statistic > tau_max:
-        pvalue = float(mackinnonp(tau_max, regression=regression, N=1))
+    if bound > 0:
+        edge = float(engine._tau_maxs[regression][0])
         return pvalue, ">", (
             f"statistic {statistic:.4g} lies above the range of the MacKinnon (1994) p-value surface "
-            f"(which ends at {tau_max:g}); the p-value is larger than {pvalue:.3g}, its value there"
+            f"(which ends at {edge:g}); the p-value is larger than {pvalue:.3g}, its value there"
         )
-    return float(mackinnonp(statistic, regression=regression, N=1)), None, None
+    return pvalue, None, None
+
+
+def _mackinnon_critical_values(regression: str, nobs: int) -> dict[str, float]:
+    """MacKinnon's (2010) response surface at ``nobs`` (MacKinnon 1996 without deterministic terms)."""
+    one, five, ten = engine.mackinnon_critical_values(regression, nobs)
+    return {"1%": one, "5%": five, "10%": ten}
 
 
 def _significance_key(significance: float) -> str:
@@ -393,15 +392,22 @@ def adf(
     normalised = _normalised(array)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        chosen = search_lags if criterion == "fixed" else adf_lag_search(
-            normalised, search_lags, criterion, deterministic
-        )
-        _check_residual_freedom("ADF", deterministic, chosen, _TREND_COUNT[deterministic], nobs_series, level)
-        statistic, nobs = dickey_fuller_t_statistic(normalised, chosen, deterministic, test="ADF", level=level)
+        if criterion == "fixed":
+            chosen = search_lags
+            _check_residual_freedom("ADF", deterministic, chosen, _TREND_COUNT[deterministic], nobs_series, level)
+            statistic, nobs = dickey_fuller_t_statistic(normalised, chosen, deterministic, test="ADF", level=level)
+        else:
+            if nobs_series - 1 - search_lags < _TREND_COUNT[deterministic] + 2:
+                raise ValueError(f"{nobs_series} observations are too few for an ADF regression")
+            chosen, statistic, status = _adf_fit(_Series(normalised), search_lags, _TREND_COUNT[deterministic])[
+                criterion
+            ]
+            _check_residual_freedom("ADF", deterministic, chosen, _TREND_COUNT[deterministic], nobs_series, level)
+            _refuse(status, "ADF", level)
+            nobs = nobs_series - 1 - chosen
     notes = list(_warning_notes(caught))
 
-    critical = mackinnoncrit(N=1, regression=regression, nobs=nobs)
-    critical_values = {"1%": float(critical[0]), "5%": float(critical[1]), "10%": float(critical[2])}
+    critical_values = _mackinnon_critical_values(regression, nobs)
     surface = "MacKinnon (1996)" if regression == "n" else "MacKinnon (2010)"
 
     pvalue, bound, note = _mackinnon_pvalue(statistic, regression)
@@ -481,8 +487,8 @@ def adf_trend_t_statistic(values: pd.Series, *, lags: int) -> float:
     columns.append(np.ones(nobs))
     columns.append(np.arange(1.0, nobs + 1.0))
     design = np.column_stack(columns)
-    fit = OLS(differences[lags:], design).fit()
-    return float(fit.tvalues[-1])
+    fit = _by_qr(_column_scaled(design), differences[lags:])
+    return float(fit.last_t_statistics(nobs)[-1])
 
 
 def kpss(
@@ -562,25 +568,30 @@ def kpss(
         )
     _check_not_constant(array, "KPSS", level)
 
+    statistics, bandwidths = engine.kpss_arrays(_normalised(array)[None, :], _TREND_COUNT[deterministic], lags)
+    statistic, bandwidth = float(statistics[0]), int(bandwidths[0])
+    table = dict(_KPSS_1992[deterministic])
+    interpolated = float(np.interp(statistic, list(table.values()), list(_KPSS_LEVELS)))
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        result = statsmodels_kpss(
-            _normalised(array),
-            regression=_REGRESSION[deterministic],
-            nlags="auto" if lags is None else lags,
-            result_object=True,
-        )
+        if interpolated in (0.01, 0.10):
+            # The note earlier releases kept from statsmodels' kpss, in its words.
+            direction = "smaller" if interpolated == 0.01 else "greater"
+            warnings.warn(
+                "The test statistic is outside of the range of p-values available in the look-up table. "
+                f"The actual p-value is {direction} than the p-value returned.",
+                InterpolationWarning,
+                stacklevel=2,
+            )
     notes = list(_warning_notes(caught))
 
-    statistic = float(result.statistic)
-    table = {name: float(result.critical_values[name]) for name in ("10%", "5%", "2.5%", "1%")}
     bound: str | None = None
     if statistic > table["1%"]:
         bound, pvalue = "<", 0.01
     elif statistic < table["10%"]:
         bound, pvalue = ">", 0.10
     else:
-        pvalue = float(result.pvalue)
+        pvalue = interpolated
     if bound is not None:
         side = "above" if bound == "<" else "below"
         notes.append(
@@ -606,7 +617,7 @@ def kpss(
             "Kwiatkowski, Phillips, Schmidt and Shin (1992), Table 1 (asymptotic); "
             "p-value interpolated linearly between its entries"
         ),
-        lags=int(result.lags),
+        lags=bandwidth,
         lag_rule=lag_rule,
         nobs=nobs,
         sample_start=_label(values, 0),
@@ -617,7 +628,7 @@ def kpss(
         pvalue_source=(
             "interpolated linearly between the entries of KPSS (1992) Table 1; a bound beyond the table"
         ),
-        bandwidth=int(result.lags),
+        bandwidth=bandwidth,
         bandwidth_rule=lag_rule,
     )
 
@@ -653,7 +664,7 @@ def _interpolated_pvalue(
             f"statistic {statistic:.4g} lies above the 10% critical value {points[2]:.4g} of {table}; "
             "the p-value is reported as a bound (p > 0.10)"
         )
-    return float(np.interp(statistic, points, [0.01, 0.05, 0.10])), None, None
+    return float(engine.table_pvalues(np.array([statistic]), points, (0.01, 0.05, 0.10))[0][0]), None, None
 
 
 def newey_west_bandwidth(residuals: np.ndarray) -> int:
@@ -684,24 +695,12 @@ def newey_west_bandwidth(residuals: np.ndarray) -> int:
     nobs = series.size
     if nobs < 2:
         raise ValueError(f"the automatic bandwidth needs at least 2 residuals; got {nobs}")
-    pilot = min(int(4.0 * (nobs / 100.0) ** (2.0 / 9.0)), nobs - 1)
-    autocovariances = np.array([series[j:] @ series[: nobs - j] for j in range(pilot + 1)])
-    s0 = float(autocovariances[0] + 2.0 * autocovariances[1:].sum())
-    s1 = float(2.0 * (np.arange(1.0, pilot + 1.0) * autocovariances[1:]).sum())
-    if s0 == 0.0:
-        return nobs - 1
-    gamma = 1.1447 * ((s1 / s0) ** 2) ** (1.0 / 3.0)
-    return min(int(gamma * nobs ** (1.0 / 3.0)), nobs - 1)
+    return int(engine.newey_west_bandwidths(series[None, :])[0])
 
 
 def _bartlett_long_run_variance(residuals: np.ndarray, bandwidth: int) -> float:
     """``gamma_0 + 2 sum_{j=1..L} (1 - j/(L+1)) gamma_j`` with autocovariances divided by ``T``."""
-    nobs = residuals.size
-    value = float(residuals @ residuals) / nobs
-    for lag in range(1, bandwidth + 1):
-        weight = 1.0 - lag / (bandwidth + 1.0)
-        value += 2.0 * weight * float(residuals[lag:] @ residuals[:-lag]) / nobs
-    return value
+    return float(engine.bartlett_long_run_variance(np.asarray(residuals, dtype=float)[None, :], bandwidth)[0])
 
 
 def phillips_perron(
@@ -793,38 +792,17 @@ def phillips_perron(
 
     normalised = _normalised(array)
     nobs = nobs_series - 1
-    columns = [normalised[:-1]]
-    if trend_count >= 1:
-        columns.append(np.ones(nobs))
-    if trend_count == 2:
-        columns.append(np.arange(1.0, nobs + 1.0) / nobs)
-    design = np.column_stack(columns)
-    response = normalised[1:]
-    if np.linalg.matrix_rank(design) < design.shape[1]:
-        raise StatsInputError(
-            problem=(
-                f"Phillips-Perron cannot be run: the lagged series is collinear with the deterministic "
-                f"terms at level {level}"
-            ),
-            hint="the series is (nearly) a constant or a straight line over the regression sample",
-        )
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        fit = OLS(response, design).fit()
-    notes = list(_warning_notes(caught))
-    residuals = np.asarray(fit.resid, dtype=float)
-    sum_of_squares = float(residuals @ residuals)
-    if sum_of_squares <= (1e-13) ** 2 * float(response @ response):
-        raise StatsInputError(
-            problem=(
-                f"Phillips-Perron cannot be run: the Dickey-Fuller regression fits the series exactly at "
-                f"level {level}"
-            ),
-            hint="a series without noise has no long-run variance to estimate; check the data",
-        )
+    computed = engine.phillips_perron_arrays(normalised[None, :], trend_count, bandwidth)
+    status = int(computed.status[0])
+    if status == engine.COLLINEAR:  # nearly: the rank test decides, on the explicit design
+        statistic, chosen = _phillips_perron_explicit(normalised, trend_count, bandwidth, level)
+    elif status == engine.EXACT_FIT:
+        raise _pp_exact_fit(level)
+    else:
+        statistic, chosen = float(computed.statistic[0]), int(computed.bandwidth[0])
+    notes: list[str] = []
 
     if bandwidth is None:
-        chosen = newey_west_bandwidth(residuals)
         bandwidth_rule = (
             "Newey and West (1994) automatic bandwidth, Bartlett kernel with weights 1 - j/(L+1), "
             "pilot int(4 (T/100)^(2/9)), L = int(1.1447 (s1/s0)^(2/3) T^(1/3))"
@@ -832,22 +810,10 @@ def phillips_perron(
         if chosen == nobs - 1:
             bandwidth_rule += ", capped at T - 1"
     else:
-        chosen = bandwidth
         bandwidth_rule = "bandwidth fixed by the caller, Bartlett kernel with weights 1 - j/(L+1)"
 
-    parameters = design.shape[1]
-    gamma0 = sum_of_squares / nobs
-    residual_scale = math.sqrt(sum_of_squares / (nobs - parameters))
-    long_run = _bartlett_long_run_variance(residuals, chosen)
-    rho = float(fit.params[0])
-    standard_error = float(fit.bse[0])
-    statistic = math.sqrt(gamma0 / long_run) * (rho - 1.0) / standard_error - 0.5 * (
-        (long_run - gamma0) / math.sqrt(long_run)
-    ) * (nobs * standard_error / residual_scale)
-
     regression = _REGRESSION[deterministic]
-    critical = mackinnoncrit(N=1, regression=regression, nobs=nobs)
-    critical_values = {"1%": float(critical[0]), "5%": float(critical[1]), "10%": float(critical[2])}
+    critical_values = _mackinnon_critical_values(regression, nobs)
     surface = "MacKinnon (1996)" if regression == "n" else "MacKinnon (2010)"
     pvalue, bound, note = _mackinnon_pvalue(statistic, regression)
     if note is not None:
@@ -878,6 +844,56 @@ def phillips_perron(
     )
 
 
+def _pp_exact_fit(level: int) -> StatsInputError:
+    return StatsInputError(
+        problem=(
+            f"Phillips-Perron cannot be run: the Dickey-Fuller regression fits the series exactly at "
+            f"level {level}"
+        ),
+        hint="a series without noise has no long-run variance to estimate; check the data",
+    )
+
+
+def _phillips_perron_explicit(normalised: np.ndarray, trend_count: int, bandwidth: int | None,
+                              level: int) -> tuple[float, int]:
+    """``Z_t`` from the explicit design by pseudo-inverse, for a lagged level nearly collinear with the terms.
+
+    Refuses a design of deficient rank (numpy's ``matrix_rank``) and an exact fit.
+    """
+    nobs = normalised.size - 1
+    columns = [normalised[:-1]]
+    if trend_count >= 1:
+        columns.append(np.ones(nobs))
+    if trend_count == 2:
+        columns.append(np.arange(1.0, nobs + 1.0) / nobs)
+    design = np.column_stack(columns)
+    response = normalised[1:]
+    if np.linalg.matrix_rank(design) < design.shape[1]:
+        raise StatsInputError(
+            problem=(
+                f"Phillips-Perron cannot be run: the lagged series is collinear with the deterministic "
+                f"terms at level {level}"
+            ),
+            hint="the series is (nearly) a constant or a straight line over the regression sample",
+        )
+    inverse = np.linalg.pinv(design)
+    coefficients = inverse @ response
+    residuals = response - design @ coefficients
+    sum_of_squares = float(residuals @ residuals)
+    if sum_of_squares <= (1e-13) ** 2 * float(response @ response):
+        raise _pp_exact_fit(level)
+    chosen = newey_west_bandwidth(residuals) if bandwidth is None else bandwidth
+    parameters = design.shape[1]
+    gamma0 = sum_of_squares / nobs
+    residual_scale = math.sqrt(sum_of_squares / (nobs - parameters))
+    long_run = _bartlett_long_run_variance(residuals, chosen)
+    standard_error = residual_scale * math.sqrt(float(inverse[0] @ inverse[0]))
+    statistic = math.sqrt(gamma0 / long_run) * (float(coefficients[0]) - 1.0) / standard_error - 0.5 * (
+        (long_run - gamma0) / math.sqrt(long_run)
+    ) * (nobs * standard_error / residual_scale)
+    return statistic, chosen
+
+
 def adf_lag_search(series: np.ndarray, max_lags: int, criterion: str, deterministic: Deterministic) -> int:
     """The number of lagged differences an ADF-type lag search chooses, from 0 to ``max_lags``.
 
@@ -888,10 +904,12 @@ def adf_lag_search(series: np.ndarray, max_lags: int, criterion: str, determinis
     regressors, are minimised (the smallest lag on ties); the t-stat rule takes the largest lag
     whose last coefficient has ``|t| >= 1.6449`` (classical t with ``SSR/(n - k)``), or 0.
 
-    The candidates are nested, so one QR decomposition of the largest design gives every
-    candidate's residual sum of squares and last t-statistic: the search costs one least-squares
-    fit instead of ``max_lags + 1`` (statsmodels refits each candidate by a singular value
-    decomposition, which takes minutes at 100,000 observations and 67 lags).
+    The candidates are nested, so one factorisation of the largest design gives every
+    candidate's residual sum of squares and last t-statistic (:func:`~reportgen.stats.engine.adf_lags`:
+    cross products in ``O(T max_lags)``, Householder QR where they cannot be trusted): the search
+    costs less than one least-squares fit instead of ``max_lags + 1`` (statsmodels refits each
+    candidate by a singular value decomposition, which takes minutes at 100,000 observations and
+    67 lags).
 
     Parameters
     ----------
@@ -923,28 +941,10 @@ def adf_lag_search(series: np.ndarray, max_lags: int, criterion: str, determinis
     if max_lags < 0:
         raise ValueError(f"max_lags must be 0 or more; got {max_lags}")
     series = np.asarray(series, dtype=float)
-    differences = np.diff(series)
-    nobs = differences.size - max_lags
     trend_count = _TREND_COUNT[deterministic]
-    if nobs < trend_count + 2:
+    if series.size - 1 - max_lags < trend_count + 2:
         raise ValueError(f"{series.size} observations are too few for an ADF regression")
-    fit = _lag_search_fit(_Series(series), max_lags, trend_count)
-    first = trend_count  # column of the lagged level: the candidate with 0 lagged differences
-    # A candidate without a residual degree of freedom fits exactly (an AIC of minus infinity, an
-    # undefined t-statistic) and is not a candidate.
-    largest = min(max_lags, nobs - first - 2)
-    candidates = fit.sums_of_squares()[first : first + largest + 1]
-    regressors = np.arange(first + 1, first + largest + 2)
-    if criterion == "t-stat":
-        t_statistics = fit.last_t_statistics(nobs)
-        for lags in range(largest, 0, -1):
-            if abs(t_statistics[first + lags]) >= 1.6448536269514722:
-                return lags
-        return 0
-    candidates = np.maximum(candidates, np.finfo(float).tiny)  # an exact fit ranks first, not as NaN
-    log_likelihood = -nobs / 2.0 * (math.log(2.0 * math.pi) + np.log(candidates / nobs) + 1.0)
-    penalty = 2.0 if criterion == "aic" else math.log(nobs)
-    return int(np.argmin(-2.0 * log_likelihood + penalty * regressors))
+    return _searched_lags(_Series(series), max_lags, trend_count)[criterion]
 
 
 @dataclass(frozen=True, slots=True, eq=False)
@@ -964,37 +964,38 @@ class _Series:
         return hash(self.digest)
 
 
-@functools.lru_cache(maxsize=16)
-def _lag_search_fit(series: _Series, max_lags: int, trend_count: int) -> NestedFit:
-    """The factorisation behind a lag search, kept for the next criterion searching the same regression.
+@functools.lru_cache(maxsize=64)
+def _searched_lags(series: _Series, max_lags: int, trend_count: int) -> dict[str, int]:
+    """Every criterion's choice in one lag search, kept for the next criterion searching the same regression.
 
     The decision rule and its robustness grid search the same series with the same terms by AIC,
-    BIC and t-stat; the three searches share one factorisation (on 100,000 observations and 67
-    lags it is most of their cost). The cache holds results, not state: a hit returns the numbers
-    a recomputation would.
+    BIC and t-stat; the three share one factorisation. The cache holds results, not state: a hit
+    returns the numbers a recomputation would.
     """
-    values = series.values
-    return nested_least_squares(_df_design(values, max_lags, trend_count, level_last=False),
-                                np.diff(values)[max_lags:])
+    chosen = engine.adf_lags(series.values[None, :], max_lags, trend_count, engine.CRITERIA)
+    return {criterion: int(values[0]) for criterion, values in chosen.items()}
 
 
-def _df_design(series: np.ndarray, lags: int, trend_count: int, *, level_last: bool) -> np.ndarray:
-    """The ADF regressors on the sample of ``lags``: constant, trend / n, then the lagged level and
-    the lagged differences (or the differences first and the level last)."""
-    differences = np.diff(series)
-    nobs = differences.size - lags
-    columns: list[np.ndarray] = []
-    if trend_count >= 1:
-        columns.append(np.ones(nobs))
-    if trend_count == 2:
-        columns.append(np.arange(1.0, nobs + 1.0) / nobs)
-    level = series[lags:-1]
-    if not level_last:
-        columns.append(level)
-    columns.extend(differences[lags - j : lags - j + nobs] for j in range(1, lags + 1))
-    if level_last:
-        columns.append(level)
-    return np.column_stack(columns)
+@functools.lru_cache(maxsize=64)
+def _adf_fit(series: _Series, max_lags: int, trend_count: int) -> dict[str, tuple[int, float, int]]:
+    """Every criterion's lag, statistic and refusal status (:func:`~reportgen.stats.engine.adf_arrays`):
+    one search and its refits, kept for the next criterion (the decision rule and the grid ask for
+    all three)."""
+    fitted = engine.adf_arrays(series.values[None, :], max_lags, trend_count, engine.CRITERIA)
+    return {criterion: (int(lags[0]), float(statistics[0]), int(status[0]))
+            for criterion, (lags, statistics, status) in fitted.items()}
+
+
+@functools.lru_cache(maxsize=128)
+def _refitted(series: _Series, lags: int, trend_count: int) -> tuple[float, int]:
+    """The lagged level's t-statistic and the refusal status of one regression (kept like the searches)."""
+    statistics, status = engine.dickey_fuller_statistics(series.values[None, :], lags, trend_count)
+    return float(statistics[0]), int(status[0])
+
+
+#: The ADF regressors on the sample of ``lags`` (constant, trend / n, then the lagged level and the
+#: lagged differences, or the differences first and the level last): kept for the tests.
+_df_design = engine._design
 
 
 def dickey_fuller_t_statistic(
@@ -1002,15 +1003,15 @@ def dickey_fuller_t_statistic(
 ) -> tuple[float, int]:
     """The t-statistic of the lagged level in the ADF regression with ``lags`` lagged differences.
 
-    The regression is first factorised here (:func:`~reportgen.stats.numerics.nested_least_squares`,
-    columns scaled to unit length, the lagged level last) to refuse what has no t-statistic: a
-    design whose lagged level is a linear combination of the other regressors (the diagonal of
-    ``R`` at most 1e-10), or residuals at most 1e-13 of the dependent variable's length (an exact
-    fit). Below :data:`~reportgen.stats.numerics.LARGE_SAMPLE` observations the statistic is then
-    statsmodels' ``adfuller`` (``autolag=None``); from there on it is read off the factorisation
-    (``p_k / s``, see :class:`~reportgen.stats.numerics.NestedFit`), because statsmodels'
-    pseudo-inverse takes seconds per regression on 100,000 observations. Both compute the same
-    number; they agree to about 1e-10 (relative) where both are run.
+    The statistic is read off the factorisation of the regression's cross products
+    (:func:`~reportgen.stats.engine.dickey_fuller_statistics`); a regression the cross products
+    cannot vouch for is factorised by Householder QR of its column-scaled design (the lagged level
+    last), which also refuses what has no t-statistic: a design whose lagged level or a lagged
+    difference is a linear combination of the regressors before it (the diagonal of ``R`` at most
+    1e-10), or residuals at most 1e-13 of the dependent variable's length (an exact fit). The fast
+    arithmetic is trusted only far from both thresholds, so it never reports a statistic the exact
+    arithmetic would refuse; the two agree to about 1e-11 (relative) where both are run, and with
+    statsmodels' ``adfuller`` (``autolag=None``) to the same order.
 
     Parameters
     ----------
@@ -1039,11 +1040,15 @@ def dickey_fuller_t_statistic(
     series with a unit root. *Journal of the American Statistical Association* 74, 427-431.
     """
     series = np.asarray(series, dtype=float)
-    nobs = series.size - 1 - lags
-    trend_count = _TREND_COUNT[deterministic]
-    response = np.diff(series)[lags:]
-    fit = nested_least_squares(_df_design(series, lags, trend_count, level_last=True), response)
-    if float(np.min(np.abs(np.diag(fit.r_factor)))) <= 1e-10:
+    statistic, status = _refitted(_Series(series), lags, _TREND_COUNT[deterministic])
+    _refuse(status, test, level)
+    return statistic, series.size - 1 - lags
+
+
+def _refuse(status: int, test: str, level: int) -> None:
+    """Raise the error of a refused regression (:data:`~reportgen.stats.engine.COLLINEAR` or
+    :data:`~reportgen.stats.engine.EXACT_FIT`); nothing for a computed one."""
+    if status == engine.COLLINEAR:
         raise StatsInputError(
             problem=(
                 f"{test} cannot be run: the lagged series is collinear with the deterministic terms and "
@@ -1051,49 +1056,15 @@ def dickey_fuller_t_statistic(
             ),
             hint="the series is (nearly) a constant or a straight line over the regression sample",
         )
-    if fit.residual_sum <= (1e-13) ** 2 * float(response @ response):
+    if status == engine.EXACT_FIT:
         raise StatsInputError(
             problem=f"{test} cannot be run: the Dickey-Fuller regression fits the series exactly at level {level}",
             hint="a series without noise has no unit root to test; check the data",
         )
-    if series.size < LARGE_SAMPLE:
-        result = adfuller(series, maxlag=lags, regression=_REGRESSION[deterministic], autolag=None,
-                          result_object=True)
-        return float(result.statistic), int(result.nobs)
-    return float(fit.last_t_statistics(nobs)[-1]), nobs
 
 
-def dfgls_trend_critical_values(nobs: int) -> dict[str, float]:
-    """DF-GLS critical values with constant and trend: Elliott, Rothenberg and Stock (1996), Table I.
-
-    The table's rows (T = 50, 100, 200 and infinity) are interpolated linearly in ``1/T``; below
-    T = 50 the T = 50 row is used.
-
-    Parameters
-    ----------
-    nobs : int
-        Number of observations of the series (the sample that is GLS-detrended).
-
-    Returns
-    -------
-    dict
-        ``{"1%": ..., "5%": ..., "10%": ...}``.
-
-    References
-    ----------
-    Elliott, G., Rothenberg, T. J. and Stock, J. H. (1996). Efficient tests for an autoregressive
-    unit root. *Econometrica* 64, 813-836.
-    """
-    if nobs < 1:
-        raise ValueError(f"nobs must be positive; got {nobs}")
-    inverse = [0.0 if math.isinf(size) else 1.0 / size for size in _ERS_TREND_TABLE]
-    order = np.argsort(inverse)
-    positions = np.asarray(inverse)[order]
-    rows = np.asarray(list(_ERS_TREND_TABLE.values()))[order]
-    return {
-        key: float(np.interp(1.0 / nobs, positions, rows[:, column]))
-        for column, key in enumerate(("1%", "5%", "10%"))
-    }
+#: DF-GLS critical values with constant and trend (Elliott, Rothenberg and Stock 1996, Table I).
+dfgls_trend_critical_values = engine.dfgls_trend_critical_values
 
 
 def dfgls(
@@ -1189,17 +1160,8 @@ def dfgls(
     _check_not_constant(array, "DF-GLS", level)
 
     normalised = _normalised(array)
-    terms = [np.ones(nobs_series)]
-    if deterministic == "constant-trend":
-        terms.append(np.arange(1.0, nobs_series + 1.0) / nobs_series)
-    trend_terms = np.column_stack(terms)
-    alpha = 1.0 + DFGLS_CBAR[deterministic] / nobs_series
-    quasi_series = normalised.copy()
-    quasi_series[1:] -= alpha * normalised[:-1]
-    quasi_terms = trend_terms.copy()
-    quasi_terms[1:] -= alpha * trend_terms[:-1]
-    gls_coefficients = np.linalg.lstsq(quasi_terms, quasi_series, rcond=None)[0]
-    detrended = normalised - trend_terms @ gls_coefficients
+    gls_rows, ols_rows = engine.dfgls_detrended(normalised[None, :], deterministic)
+    detrended, ols_detrended = gls_rows[0], ols_rows[0]
     if float(np.max(np.abs(detrended))) <= 1e-12:
         raise StatsInputError(
             problem=(
@@ -1211,18 +1173,15 @@ def dfgls(
 
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        if criterion == "fixed":
-            lags = search_lags
-        else:
-            ols_coefficients = np.linalg.lstsq(trend_terms, normalised, rcond=None)[0]
-            lags = adf_lag_search(normalised - trend_terms @ ols_coefficients, search_lags, criterion, "none")
+        lags = search_lags if criterion == "fixed" else adf_lag_search(
+            ols_detrended, search_lags, criterion, "none"
+        )
         _check_residual_freedom("DF-GLS", deterministic, lags, 0, nobs_series, level)
         statistic, nobs = dickey_fuller_t_statistic(detrended, lags, "none", test="DF-GLS", level=level)
     notes = list(_warning_notes(caught))
 
     if deterministic == "constant":
-        critical = mackinnoncrit(N=1, regression="n", nobs=nobs)
-        critical_values = {"1%": float(critical[0]), "5%": float(critical[1]), "10%": float(critical[2])}
+        critical_values = _mackinnon_critical_values("n", nobs)
         source = (
             f"MacKinnon (1996) response surface without deterministic terms, T={nobs} (the DF-GLS "
             "statistic with constant has that distribution; Elliott, Rothenberg and Stock 1996)"
