@@ -182,11 +182,11 @@ def run_size(series_count: int, *, seed: int = SEED, cache: Path | None = None, 
                 document = held["document"]
                 report["statistics_cached"] = True
         if document is None:
-            started = time.perf_counter()
+            started, cpu = time.perf_counter(), time.process_time()
             results = analyse(manifest, ["reportgen", "run", "manifest.yaml"])
             document = results_to_dict(results)
             document["run_id"] = document_run_id(document)
-            report["statistics"] = time.perf_counter() - started
+            report["statistics"], report["statistics_cpu"] = time.perf_counter() - started, time.process_time() - cpu
             if stored is not None:
                 stored.parent.mkdir(parents=True, exist_ok=True)
                 stored.write_text(json.dumps({"key": key, "document": document}), encoding="utf-8")
@@ -195,26 +195,27 @@ def run_size(series_count: int, *, seed: int = SEED, cache: Path | None = None, 
         out.mkdir(exist_ok=True)
         (out / "results.json").write_text(dumps(document), encoding="utf-8")
 
-        started = time.perf_counter()
+        started, cpu = time.perf_counter(), time.process_time()
         plots = render_plots(document)
-        report["charts"] = time.perf_counter() - started
+        report["charts"], report["charts_cpu"] = time.perf_counter() - started, time.process_time() - cpu
         report["chart_count"] = len(plots)
 
-        started = time.perf_counter()
+        started, cpu = time.perf_counter(), time.process_time()
         html = render_html(document, plots)
-        report["html"] = time.perf_counter() - started
+        report["html"], report["html_cpu"] = time.perf_counter() - started, time.process_time() - cpu
         (out / "dossier.html").write_text(html, encoding="utf-8")
         report["html_bytes"] = len(html.encode("utf-8"))
         del plots
         gc.collect()
 
         if pdf:
-            started = time.perf_counter()
+            started, cpu = time.perf_counter(), time.process_time()
             built = build_pdf(html, base_dir=manifest.base_dir, created=document["created"],
                               attachments=(manifest.path, out / "results.json"))
             (out / "dossier.pdf").write_bytes(built.data)
-            report["pdf"] = time.perf_counter() - started
+            report["pdf"], report["pdf_cpu"] = time.perf_counter() - started, time.process_time() - cpu
             report["pages"] = built.pages
+            report["pdf_details"] = built.details
             report["pdf_bytes"] = len(built.data)
             report["pdf_warnings"] = [message for message in built.warnings if "HarfBuzz" not in message][:5]
     report["max_rss_mib"] = _max_rss_mib()
@@ -269,14 +270,21 @@ def _sizes(values: Iterable[str]) -> list[int]:
 
 
 def _line(report: dict[str, Any]) -> str:
+    """One line per size: wall-clock seconds of each stage, CPU seconds in brackets (the machine may be shared)."""
     charts = report["chart_count"]
     per_chart = 1000 * report["charts"] / charts if charts else 0.0
-    statistics = "cached" if report.get("statistics_cached") else f"{report['statistics']:.1f} s"
-    pdf = f"{report['pdf']:.1f} s, {report['pages']} pages" if "pdf" in report else "skipped"
+    per_chart_cpu = 1000 * report["charts_cpu"] / charts if charts else 0.0
+    statistics = ("cached" if report.get("statistics_cached")
+                  else f"{report['statistics']:.1f} s [{report['statistics_cpu']:.1f}]")
+    pdf = "skipped"
+    if "pdf" in report:
+        folded = "with" if report["pdf_details"] else "without"
+        pdf = (f"{report['pdf']:.1f} s [{report['pdf_cpu']:.1f}], {report['pages']} pages, {folded} the folded "
+               f"parts, {report['pdf_bytes'] / 2**20:.1f} MiB")
     return (f"{report['series']:>6} series, {report['regressions']} regressions | statistics {statistics} | "
-            f"charts {report['charts']:.1f} s ({charts} charts, {per_chart:.1f} ms each) | "
-            f"HTML {report['html']:.1f} s ({report['html_bytes'] / 2**20:.1f} MiB) | PDF {pdf} | "
-            f"peak memory {report['max_rss_mib']:.0f} MiB")
+            f"charts {report['charts']:.1f} s [{report['charts_cpu']:.1f}] ({charts} charts, {per_chart:.1f} ms "
+            f"each [{per_chart_cpu:.1f}]) | HTML {report['html']:.1f} s [{report['html_cpu']:.1f}] "
+            f"({report['html_bytes'] / 2**20:.1f} MiB) | PDF {pdf} | peak memory {report['max_rss_mib']:.0f} MiB")
 
 
 def _checks(reports: Sequence[dict[str, Any]]) -> list[tuple[str, bool]]:

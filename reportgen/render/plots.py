@@ -76,7 +76,8 @@ _FAN_LEGEND_ROOM = 0.2
 _FAN_TITLE_PAD = 17.0
 _DASHED = (0, (3, 2))
 
-_RC: dict[str, Any] = {
+#: matplotlib settings every chart is drawn under (fonts, sizes, the SVG hash salt, text kept as text).
+RC_PARAMS: dict[str, Any] = {
     "svg.hashsalt": HASH_SALT,
     "svg.fonttype": "none",
     "svg.image_inline": True,
@@ -290,8 +291,9 @@ class _MeasuringRendererSVG(RendererSVG):
         return size
 
 
-def _figure_svg(figure: Figure) -> str:
-    """The figure as SVG text, as ``savefig(format="svg")`` writes it, without date or creator."""
+def figure_svg(figure: Figure) -> str:
+    """The figure as SVG text: what ``figure.savefig(buffer, format="svg", metadata={"Date": None,
+    "Creator": None})`` writes, drawn by :class:`_MeasuringRendererSVG`."""
     buffer = io.StringIO()
     width, height = figure.get_size_inches()
     renderer = MixedModeRenderer(
@@ -461,14 +463,19 @@ class _Panel:
         axes.yaxis.set_major_formatter(self.formatter)
 
     def _labels(self, pool: list[Any], count: int, *, x: bool) -> list[Any]:
-        """``count`` label texts of one axis, visible; the rest of its pool hidden."""
+        """``count`` label texts of one axis, visible; the rest of its pool hidden.
+
+        Each label has its own z-order, so labels are drawn in the same order however the pool
+        grew (matplotlib draws artists of equal z-order in the order they were added).
+        """
         while len(pool) < count:
+            order = (3.01 if x else 3.02) + len(pool) * 1e-5
             if x:
                 text = self.axes.text(0.0, 0.0, "", ha="center", va="top", fontsize=_TICK_LABEL_SIZE,
-                                      transform=self._x_place, clip_on=False)
+                                      transform=self._x_place, clip_on=False, zorder=order)
             else:
                 text = self.axes.text(0.0, 0.0, "", ha="right", va="center_baseline", fontsize=_TICK_LABEL_SIZE,
-                                      transform=self._y_place, clip_on=False)
+                                      transform=self._y_place, clip_on=False, zorder=order)
             pool.append(text)
         for index, text in enumerate(pool):
             text.set_visible(index < count)
@@ -637,13 +644,18 @@ class _FanFigure:
             place += _LEGEND_HANDLE + _LEGEND_TEXT_PAD + width + _LEGEND_SPACING
 
 
-class _ChartWriter:
-    """Draws every kind of chart on figures built once, and returns their SVG text."""
+class ChartWriter:
+    """Draws every kind of chart on figures built once, and returns their SVG text.
+
+    ``figure`` is the figure of the chart drawn last. Use it inside ``matplotlib.rc_context``
+    with :data:`RC_PARAMS`, as :func:`draw_chart` does.
+    """
 
     def __init__(self) -> None:
         self._series: tuple[Figure, _Panel, _Panel] | None = None
         self._fan: _FanFigure | None = None
         self._residuals: dict[int, tuple[Figure, list[_Panel]]] = {}
+        self.figure: Figure | None = None
 
     def series_chart(self, name: str, body: Mapping[str, Any]) -> str:
         """Two panels: the series as analysed and its first difference, against period labels."""
@@ -660,10 +672,11 @@ class _ChartWriter:
         lineage = body.get("lineage") or name
         upper.reset(f"{body.get('label') or name}: {lineage}")
         lower.reset("First difference (change from the previous period)")
+        self.figure = figure
         if not values:
             upper.empty("no observations")
             lower.empty("no observations")
-            return _figure_svg(figure)
+            return figure_svg(figure)
         positions = list(range(len(values)))
         upper.draw_line(positions, values)
         upper.y_axis(_limits([values]))
@@ -675,7 +688,7 @@ class _ChartWriter:
         else:
             lower.empty("a single observation has no difference")
             _period_axis([lower], dates)
-        return _figure_svg(figure)
+        return figure_svg(figure)
 
     def fan_chart(self, name: str, body: Mapping[str, Any]) -> str | None:
         """The observed series over the 5-95% and 25-75% bands and the median of simulated random walks.
@@ -703,6 +716,7 @@ class _ChartWriter:
         if self._fan is None:
             self._fan = _FanFigure()
         chart = self._fan
+        self.figure = chart.figure
         panel = chart.panel
         panel.reset("Observed path against simulated random walks", pad=_FAN_TITLE_PAD)
         shown: list[str] = []
@@ -728,7 +742,7 @@ class _ChartWriter:
         chart.legend(shown)
         panel.y_axis(_limits(plotted))
         _period_axis([panel], axis_dates)
-        return _figure_svg(chart.figure)
+        return figure_svg(chart.figure)
 
     def regression_chart(self, name: str, body: Mapping[str, Any]) -> str | None:
         """Residuals of the levels fit and of the differences or error-correction fit."""
@@ -756,13 +770,14 @@ class _ChartWriter:
                 _Panel(figure, item, _RESIDUAL_COLOURS[index % 2], x_labels=index == count - 1)
                 for index, item in enumerate(axes)])
         figure, panels = self._residuals[count]
+        self.figure = figure
         for panel, (title, dates, values) in zip(panels, fits, strict=True):
             panel.reset(title)
             positions = _positions(dates, axis_dates) if len(dates) == len(values) else list(range(len(values)))
             panel.draw_line(positions, values, zero=True)
             panel.y_axis(_limits([values], include_zero=True))
         _period_axis(panels, axis_dates)
-        return _figure_svg(figure)
+        return figure_svg(figure)
 
 
 # --------------------------------------------------------------------------------------------
@@ -790,21 +805,23 @@ _DESCRIPTIONS: Mapping[str, str] = {
 }
 
 #: The writer of this process (each worker of an executor has its own).
-_WRITER: _ChartWriter | None = None
+_WRITER: ChartWriter | None = None
 
 
-def draw_chart(job: ChartJob) -> str | None:
+def draw_chart(job: ChartJob, writer: ChartWriter | None = None) -> str | None:
     """One chart as inline SVG, or ``None`` when the document holds nothing to draw for it.
 
-    A plain module-level function of plain values, so that it can be sent to worker processes.
+    A plain module-level function of plain values, so that it can be sent to worker processes;
+    it draws with this process' writer unless given one.
     """
     global _WRITER
     kind, name, body, prefix = job
-    with matplotlib.rc_context(cast(Any, _RC)):
-        if _WRITER is None:
-            _WRITER = _ChartWriter()
-        draw = {"series": _WRITER.series_chart, "fan": _WRITER.fan_chart,
-                "regression": _WRITER.regression_chart}[kind]
+    with matplotlib.rc_context(cast(Any, RC_PARAMS)):
+        if writer is None:
+            if _WRITER is None:
+                _WRITER = ChartWriter()
+            writer = _WRITER
+        draw = {"series": writer.series_chart, "fan": writer.fan_chart, "regression": writer.regression_chart}[kind]
         svg = draw(name, body)
     if svg is None:
         return None
