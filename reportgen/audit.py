@@ -18,7 +18,7 @@ import re
 import tempfile
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, field
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 from typing import Any, Literal
 
 import jinja2
@@ -214,12 +214,17 @@ def _folder_file_checks(folder: Path, notes: list[str]) -> list[Check]:
         listing = None
 
     def read(name: str) -> bytes | None:
-        return _read(folder / name) if Path(name).name == name else None
+        # A listed name is a file of the folder or of one of its subfolders (tables/), never a path out of it.
+        parts = PurePosixPath(name).parts
+        if not parts or PurePosixPath(name).is_absolute() or ".." in parts or "\\" in name:
+            return None
+        return _read(folder.joinpath(*parts))
 
     checks = _listing_checks(listing, read, lambda name: str(folder / name), ())
     if listing is not None:
+        listed_tops = {PurePosixPath(name).parts[0] for name in listing}
         extra = sorted(path.name for path in folder.iterdir()
-                       if path.name not in listing and path.name != CHECKSUMS_FILE)
+                       if path.name not in listed_tops and path.name != CHECKSUMS_FILE)
         if extra:
             notes.append(f"not part of the dossier (absent from {CHECKSUMS_FILE}): {', '.join(extra)}")
     return checks

@@ -2,9 +2,10 @@
 
 Commands:
   reportgen run MANIFEST --out DIR [--format html,pdf|json] [--bundle] [--force] [--fail-on CONDITION]
+                [--jobs N | --cluster ADDRESS] [--cache DIR | --no-cache] [--quiet]
   reportgen verify DIR_OR_BUNDLE [--recompute] [--tolerance 1e-9]
   reportgen diff OLD NEW [--html FILE] [--tolerance 1e-6] [--exit-code]
-  reportgen explain [CODE]
+  reportgen init DIR | check MANIFEST | schema | explain [CODE]
 
 Exit status (the one place it is decided):
   0  success: the run wrote its dossier; verify found everything as recorded; diff ran (with or
@@ -64,7 +65,7 @@ def _formats(text: str) -> tuple[str, ...]:
     unknown = [part for part in chosen if part not in (*FORMATS, "json")]
     if unknown or not chosen:
         raise argparse.ArgumentTypeError(
-            f"unknown format {', '.join(unknown) or '(none)'}; choose from html, pdf, json (comma-separated)")
+            f"unknown format {', '.join(unknown) or '(none)'}; choose from html, pdf, tables, json (comma-separated)")
     return tuple(part for part in chosen if part != "json")
 
 
@@ -76,6 +77,16 @@ def _conditions(text: str) -> tuple[str, ...]:
             f"unknown condition {', '.join(unknown) or '(none)'}; choose from {', '.join(FAIL_CONDITIONS)} "
             "(comma-separated or repeated)")
     return chosen
+
+
+def _jobs(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"the number of jobs must be a whole number of at least 1; not {text!r}")
+    return value
 
 
 def _tolerance(text: str) -> float:
@@ -97,9 +108,9 @@ def build_parser() -> argparse.ArgumentParser:
     run = commands.add_parser("run", help="analyse a manifest and write the dossier")
     run.add_argument("manifest", type=Path, help="the manifest (YAML)")
     run.add_argument("--out", type=Path, required=True, help="folder for results.json and the dossier")
-    run.add_argument("--format", type=_formats, default=("html", "pdf"), dest="formats",
-                     help="comma-separated outputs besides results.json: html, pdf (default both); "
-                          "'json' for results.json alone")
+    run.add_argument("--format", type=_formats, default=("html", "pdf", "tables"), dest="formats",
+                     help="comma-separated outputs besides results.json: html, pdf, tables (CSV and LaTeX files "
+                          "under DIR/tables/; default all three); 'json' for results.json alone")
     run.add_argument("--templates", type=Path, action="append", default=[],
                      help="a folder of templates searched before the packaged ones (repeatable)")
     run.add_argument("--bundle", action="store_true",
@@ -111,6 +122,19 @@ def build_parser() -> argparse.ArgumentParser:
                      metavar="CONDITION",
                      help="exit with status 1 after writing the dossier when a regression is flagged, fragile or "
                           "inconclusive (comma-separated or repeated)")
+    where = run.add_mutually_exclusive_group()
+    where.add_argument("--jobs", type=_jobs, default=None, metavar="N",
+                       help="worker processes for the statistics (default: one per core, for projects big enough "
+                            "to gain from them); 1 computes everything in this process")
+    where.add_argument("--cluster", metavar="ADDRESS",
+                       help="run the statistics on the Dask cluster of this scheduler (e.g. tcp://host:8786); "
+                            "needs reportgen[cluster]")
+    caching = run.add_mutually_exclusive_group()
+    caching.add_argument("--cache", type=Path, metavar="DIR",
+                         help="reuse the results of earlier runs stored in DIR (default: $REPORTGEN_CACHE, else "
+                              "$XDG_CACHE_HOME/reportgen, else ~/.cache/reportgen)")
+    caching.add_argument("--no-cache", action="store_true", dest="no_cache",
+                         help="compute everything again and store nothing")
     run.add_argument("--quiet", action="store_true", help="print nothing but errors")
     run.add_argument("--debug", action="store_true", help="show tracebacks of errors")
 
@@ -134,6 +158,16 @@ def build_parser() -> argparse.ArgumentParser:
     diff.add_argument("--exit-code", action="store_true", dest="exit_code",
                       help="exit with status 1 when there are differences (default: 0 either way)")
     diff.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    init = commands.add_parser("init", help="create a project folder: a commented manifest, example data, a README")
+    init.add_argument("folder", type=Path, metavar="DIR", help="a new or empty folder")
+    init.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    check = commands.add_parser("check", help="validate a manifest and its data without running the statistics")
+    check.add_argument("manifest", type=Path, help="the manifest (YAML)")
+    check.add_argument("--debug", action="store_true", help="show tracebacks of errors")
+
+    commands.add_parser("schema", help="print the manifest's JSON Schema (for editors)")
 
     explain = commands.add_parser("explain", help="describe an error code (as printed in error[CODE]), or list them")
     explain.add_argument("code", nargs="?", metavar="CODE", help="an error code such as non-numeric; omit to list all")
@@ -173,15 +207,54 @@ def _crash_report(error: BaseException) -> Path:
     return Path(name)
 
 
+#: Options of ``run`` that choose where and how the statistics are computed, never what they compute.
+EXECUTION_OPTIONS: dict[str, bool] = {"--jobs": True, "--cluster": True, "--cache": True, "--no-cache": False}
+
+
+def recorded_command(arguments: Sequence[str]) -> list[str]:
+    """The command line results.json records: ``arguments`` without the :data:`EXECUTION_OPTIONS`.
+
+    Runs that differ only in those options write the same results.json, byte for byte. Options
+    may be abbreviated as argparse allows (``--job 2``, ``--no-c``) or joined to their value
+    (``--jobs=2``).
+    """
+    names = _run_long_options()
+    kept: list[str] = []
+    skip = False
+    for position, argument in enumerate(arguments):
+        if skip:
+            skip = False
+            continue
+        if argument == "--":
+            kept.extend(arguments[position:])
+            break
+        option, joined, _ = argument.partition("=")
+        matches = [name for name in names if name.startswith(option)] if option.startswith("--") else []
+        full = option if option in names else (matches[0] if len(matches) == 1 else None)
+        if full in EXECUTION_OPTIONS:
+            skip = EXECUTION_OPTIONS[full] and not joined
+            continue
+        kept.append(argument)
+    return kept
+
+
+def _run_long_options() -> list[str]:
+    """Every long option of ``run`` (argparse keeps them in its actions; there is no public accessor)."""
+    subcommands = next(action for action in build_parser()._actions if isinstance(action, argparse._SubParsersAction))
+    return [option for action in subcommands.choices["run"]._actions for option in action.option_strings
+            if option.startswith("--")]
+
+
 def _run_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.cache import ResultCache, default_cache_dir
+    from reportgen.progress import progress_display
     from reportgen.runner import run
 
-    def progress(message: str) -> None:
-        if not options.quiet:
-            print(f"  {message}", file=sys.stderr, flush=True)
-
+    cache = None if options.no_cache else ResultCache(options.cache or default_cache_dir())
     outcome = run(options.manifest, options.out, options.formats, template_dirs=options.templates,
-                  command=["reportgen", *arguments], progress=progress, bundle=options.bundle, force=options.force)
+                  command=["reportgen", *recorded_command(arguments)],
+                  progress=progress_display(sys.stderr, quiet=options.quiet), bundle=options.bundle,
+                  force=options.force, jobs=options.jobs, cluster=options.cluster, cache=cache)
     if not options.quiet:
         print(_summary(dict(outcome.document), outcome.out_dir, outcome.files))
     conditions = [condition for group in options.fail_on for condition in group]
@@ -242,6 +315,31 @@ def _diff_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
     return EXIT_CONDITION if options.exit_code and changes.rows else EXIT_OK
 
 
+def _init_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.scaffold import init_project
+
+    for path in init_project(options.folder):
+        print(f"wrote {path}")
+    print(f"next: reportgen check {options.folder / 'manifest.yaml'}")
+    return EXIT_OK
+
+
+def _check_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    from reportgen.preflight import check_manifest
+
+    print(check_manifest(options.manifest).text())
+    return EXIT_OK
+
+
+def _schema_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
+    import json
+
+    from reportgen.preflight import manifest_schema
+
+    print(json.dumps(manifest_schema(), indent=2, ensure_ascii=False))
+    return EXIT_OK
+
+
 def _explain_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
     from reportgen.errors import CATALOGUE, explain
 
@@ -262,7 +360,8 @@ def _explain_command(options: argparse.Namespace, arguments: Sequence[str]) -> i
     return EXIT_OK
 
 
-_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command, "explain": _explain_command}
+_COMMANDS = {"run": _run_command, "verify": _verify_command, "diff": _diff_command, "init": _init_command,
+             "check": _check_command, "schema": _schema_command, "explain": _explain_command}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -340,6 +340,46 @@ class DataUnreadableError(DataError):
     fix = "check the file's permissions"
 
 
+class DataFormatUnknownError(DataError):
+    """A data file whose suffix names no format reportgen reads, and no format declared."""
+
+    code = "data-format"
+    template = "cannot tell the format of {file} from its suffix {suffix}"
+    fix = "declare it: format: csv|parquet|excel (or rename the file to .csv, .parquet or .xlsx)"
+
+
+class SourcePackageMissingError(DataError):
+    """A data format whose reader is an optional package that is not installed."""
+
+    code = "needs-package"
+    template = "reading {file} needs the Python package {package}, which is not installed"
+    fix = "install it: python -m pip install 'reportgen[{extra}]'"
+
+
+class SqlQueryError(DataError):
+    """A database dataset without a query, with a query that is not one SELECT, or whose query fails."""
+
+    code = "sql-query"
+    template = "{problem}"
+    fix = "{remedy}"
+
+
+class SheetMissingError(DataError):
+    """An Excel sheet name the workbook does not have."""
+
+    code = "sheet-missing"
+    template = "{file} has no sheet named {sheet!r}"
+    fix = "sheets in the workbook: {sheets}"
+
+
+class CellRangeError(DataError):
+    """An Excel cell range that is not of the form A3:F200."""
+
+    code = "cell-range"
+    template = "cannot read the cell range {range!r}"
+    fix = "write a range of cells with both corners, e.g. range: A3:F200"
+
+
 class DataEncodingError(DataError):
     """A data file's bytes are not UTF-8 text."""
 
@@ -427,6 +467,14 @@ class FrequencyMismatchError(DataError):
     code = "frequency-mismatch"
     template = "{file} is declared {frequency} but has {form} date labels"
     fix = "declare the frequency the dates carry"
+
+
+class ConversionError(DataError):
+    """A frequency conversion that is not to a coarser frequency, or leaves no complete period."""
+
+    code = "conversion"
+    template = "{problem}"
+    fix = "{remedy}"
 
 
 class ColumnMissingError(DataError):
@@ -624,6 +672,14 @@ class OutputUnwritableError(OutputError):
     fix = "choose a folder you can write to, or free disk space; the previous dossier, if any, is unchanged"
 
 
+class InitTargetError(OutputError):
+    """``reportgen init`` into a file or a folder that already holds files; nothing is overwritten."""
+
+    code = "init-target"
+    template = "cannot create a project in {path}: it is {what}"
+    fix = "name a new or empty folder"
+
+
 class PageTargetError(OutputError):
     """A file option (``diff --html``) that names a folder or a path whose folder does not exist."""
 
@@ -753,3 +809,37 @@ def explain(code: str) -> str:
         lines.append(f"  fix:     {entry.fix}")
     lines.append("  exit status 2; the file, line and field are named; no dossier is written or changed")
     return "\n".join(lines)
+
+
+# ================================================================ running on a cluster
+
+
+class ClusterError(ReportgenError):
+    """The Dask cluster asked for cannot run the analysis."""
+
+    category = "Cluster error"
+
+
+class DaskMissingError(ClusterError):
+    """Running on a Dask cluster was asked for, but Dask's ``distributed`` package is not installed."""
+
+    code = "dask-missing"
+    template = "running on a Dask cluster needs the 'distributed' package, which is not installed ({problem})"
+    fix = "pip install 'reportgen[cluster]', or leave out --cluster and settings.executor: dask to run on this machine"
+
+
+class ClusterUnreachableError(ClusterError):
+    """The Dask scheduler named by ``--cluster`` does not answer."""
+
+    code = "cluster-unreachable"
+    template = "cannot reach the Dask scheduler at {address}: {reason}"
+    fix = "start the scheduler and its workers or correct the address; --jobs N runs on this machine instead"
+
+
+class ClusterMismatchError(ClusterError):
+    """A Dask cluster whose workers lack reportgen or run other versions of it or of the numerical packages."""
+
+    code = "cluster-mismatch"
+    template = "the Dask cluster at {address} cannot give this machine's results: {problem}"
+    fix = ("install the same versions of Python, reportgen, numpy, pandas, scipy, statsmodels and arch on every "
+           "worker, or run on this machine with --jobs N")

@@ -46,6 +46,8 @@ from reportgen.errors import (
 from reportgen.formula import Formula, FormulaGrammarError, parse_formula
 from reportgen.transforms import Step
 from reportgen.vocabulary import (
+    Aggregation,
+    DataFormat,
     DeterministicPolicy,
     Frequency,
     LagCriterion,
@@ -92,11 +94,21 @@ class ProjectSpec(_Model):
     reference: str = ""
 
 
+class ConvertSpec(_Model):
+    """A conversion of a dataset to a coarser frequency: the target and how periods are combined."""
+
+    to: Frequency
+    how: Aggregation
+
+
 class DatasetSpec(_Model):
     """A data file: its path (relative to the manifest), its date column, optional frequency.
 
     ``missing`` is the missing-data policy of its columns (a series may override it); ``sort``
-    lets rows out of date order be sorted instead of refused.
+    lets rows out of date order be sorted instead of refused. ``format`` (csv, parquet, excel) is
+    implied by the file's suffix unless given; ``sheet`` and ``range`` pick part of a workbook.
+    ``convert`` turns every column into a coarser frequency (``{to: quarterly, how: mean}``);
+    ``query`` is the SELECT statement that reads an SQLite database file.
     """
 
     path: str = Field(min_length=1)
@@ -104,6 +116,11 @@ class DatasetSpec(_Model):
     frequency: Frequency | None = None
     missing: MissingPolicy = "error"
     sort: bool = False
+    format: DataFormat | None = None
+    sheet: str | None = Field(default=None, min_length=1)
+    range: str | None = Field(default=None, min_length=1)
+    convert: ConvertSpec | None = None
+    query: str | None = Field(default=None, min_length=1)
 
 
 class SeriesSpec(_Model):
@@ -143,6 +160,9 @@ class SettingsSpec(_Model):
     deterministic: DeterministicPolicy = "auto"
     seed: int = Field(default=20240601, ge=0, le=2**32 - 1)
     too_short: TooShortPolicy = "error"
+    #: Where the statistics run: "local" (this machine, ``--jobs``) or "dask" (a Dask cluster). It
+    #: never changes a result, so it is left out of the settings that results.json records.
+    executor: Literal["local", "dask"] = "local"
 
 
 class ManifestSpec(_Model):
@@ -450,6 +470,19 @@ def _cross_check(spec: ManifestSpec, locate: Any) -> tuple[list[ManifestError], 
                                                             dict[str, tuple[Step, ...]]]:
     problems: list[ManifestError] = []
     transforms: dict[str, tuple[Step, ...]] = {}
+    for name, dataset in spec.datasets.items():
+        suffix = Path(dataset.path).suffix.lower()
+        excel = dataset.format == "excel" or (dataset.format is None and suffix in {".xlsx", ".xlsm"})
+        for key in ("sheet", "range"):
+            if getattr(dataset, key) is not None and not excel:
+                problems.append(InvalidValueError(location=locate("datasets", name, key),
+                                                  problem=f"'{key}' applies to Excel workbooks only",
+                                                  remedy="remove it, or declare format: excel"))
+        database = dataset.format == "sqlite" or (dataset.format is None and suffix in {".sqlite", ".sqlite3", ".db"})
+        if dataset.query is not None and not database:
+            problems.append(InvalidValueError(location=locate("datasets", name, "query"),
+                                              problem="'query' applies to SQLite databases only",
+                                              remedy="remove it, or declare format: sqlite"))
     for name, series in spec.series.items():
         if series.dataset not in spec.datasets:
             close = difflib.get_close_matches(series.dataset, list(spec.datasets), n=1)

@@ -8,11 +8,14 @@ follow one formatting policy (12 significant digits), so the same inputs give th
 from __future__ import annotations
 
 import dataclasses
+import html
 import json
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, TextIO
+
+import pandas as pd
 
 from reportgen.stats.types import OrderVerdict, RegressionAssessment
 
@@ -58,6 +61,8 @@ class DatasetRecord:
     columns: tuple[str, ...]
     table_sha256: str  # SHA-256 of the parsed table in a canonical form
     notes: tuple[str, ...] = ()
+    query: str | None = None  # the SELECT that read a database file, as written in the manifest
+    query_sha256: str | None = None  # SHA-256 of the query's UTF-8 text
 
 
 @dataclass(frozen=True, slots=True)
@@ -100,9 +105,62 @@ class Results:
     methods: Mapping[str, Any]
     cautions: tuple[str, ...] = CAUTIONS
 
+    def to_frame(self, kind: str = "series") -> pd.DataFrame:
+        """A table for notebooks: one row per series (``kind="series"``) or per regression (``"regressions"``)."""
+        if kind == "series":
+            rows = [{"series": name, "label": record.label, "order": record.verdict.order,
+                     "terms": record.verdict.deterministic.get(0), "fragile": record.verdict.fragile,
+                     "nobs": len(record.values), "start": record.start, "end": record.end,
+                     "frequency": record.frequency, "lineage": record.lineage, "reason": record.verdict.reason}
+                    for name, record in self.series.items()]
+            return pd.DataFrame(rows, columns=["series", "label", "order", "terms", "fragile", "nobs", "start", "end",
+                                               "frequency", "lineage", "reason"]).set_index("series")
+        if kind == "regressions":
+            rows = [{"regression": name, "label": self.regression_labels.get(name, name),
+                     "formula": assessment.formula, "verdict": assessment.verdict,
+                     "cointegrated": assessment.cointegrated, "flagged": assessment.flagged,
+                     "fragile": getattr(assessment, "fragile", False),
+                     "orders": ", ".join(f"{variable}: {'?' if order is None else order}"
+                                         for variable, order in assessment.orders.items())}
+                    for name, assessment in self.regressions.items()]
+            return pd.DataFrame(rows, columns=["regression", "label", "formula", "verdict", "cointegrated", "flagged",
+                                               "fragile", "orders"]).set_index("regression")
+        raise ValueError(f"kind must be 'series' or 'regressions', not {kind!r}")
+
+    def _repr_html_(self) -> str:
+        """The verdicts as an HTML table, for notebooks (every text escaped)."""
+        cells = "".join(
+            f"<tr><td>{html.escape(name)}</td><td>{html.escape(self.regression_labels.get(name, name))}</td>"
+            f"<td><code>{html.escape(assessment.formula)}</code></td><td>{html.escape(assessment.verdict)}</td>"
+            f"<td>{'yes' if assessment.flagged else 'no'}</td></tr>"
+            for name, assessment in self.regressions.items())
+        title = html.escape(str(self.project.get("title", "")))
+        return (f"<div><strong>{title}</strong> · run <code>{html.escape(self.run_id)}</code> · "
+                f"{len(self.series)} series, {len(self.regressions)} regressions"
+                "<table><thead><tr><th>regression</th><th>label</th><th>formula</th><th>verdict</th>"
+                f"<th>needs attention</th></tr></thead><tbody>{cells}</tbody></table></div>")
+
+
+#: The field names of each dataclass met by :func:`_plain` (a run meets a few types, many times over).
+_FIELD_NAMES: dict[type, tuple[str, ...]] = {}
+
 
 def _plain(value: Any) -> Any:
     """Turn dataclasses, tuples and mappings into JSON values; floats follow the policy."""
+    kind = type(value)  # the exact built-in types first: a results document is millions of them
+    if kind is float:
+        return float(format(value, f".{FLOAT_DIGITS}g")) if math.isfinite(value) else None
+    if kind is str or kind is int or kind is bool or value is None:
+        return value
+    if kind is tuple or kind is list:
+        return [_plain(item) for item in value]
+    if kind is dict:
+        return {str(key): _plain(item) for key, item in value.items()}
+    names = _FIELD_NAMES.get(kind)
+    if names is None and dataclasses.is_dataclass(kind):
+        names = _FIELD_NAMES.setdefault(kind, tuple(field.name for field in dataclasses.fields(kind)))
+    if names is not None:
+        return {name: _plain(getattr(value, name)) for name in names}
     if dataclasses.is_dataclass(value) and not isinstance(value, type):
         return {f.name: _plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
     if isinstance(value, Mapping):
@@ -186,3 +244,14 @@ def results_to_dict(results: Results) -> dict[str, Any]:
 def dumps(document: Mapping[str, Any]) -> str:
     """Serialise a results document: fixed indentation, key order as built, UTF-8 text."""
     return json.dumps(document, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def dump(document: Mapping[str, Any], stream: TextIO) -> None:
+    """Write :func:`dumps`' text to ``stream`` piece by piece, never holding all of it (documents of many series)."""
+    pieces: list[str] = []
+    for piece in json.JSONEncoder(indent=2, ensure_ascii=False, allow_nan=False).iterencode(document):
+        pieces.append(piece)
+        if len(pieces) >= 65536:
+            stream.write("".join(pieces))
+            pieces.clear()
+    stream.write("".join(pieces) + "\n")

@@ -12,6 +12,7 @@ from __future__ import annotations
 import ctypes
 import dataclasses
 import errno
+import hashlib
 import json
 import os
 import shutil
@@ -19,16 +20,19 @@ import sys
 import tempfile
 import time
 import warnings
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
+import numpy as np
 import pandas as pd
 
 from reportgen import __version__
+from reportgen.cache import ResultCache, content_key
 from reportgen.errors import (
     ConstantSeriesError,
+    DaskMissingError,
     DataError,
     InsufficientDataError,
     Location,
@@ -38,33 +42,51 @@ from reportgen.errors import (
     OutputOtherDossierError,
     OutputUnreadableResultsError,
     OutputUnwritableError,
+    ReportgenError,
     SampleBoundError,
     SampleTooShortError,
     SeriesScaleError,
     SeriesTooShortError,
 )
+from reportgen.executor import Executor, SerialExecutor, make_executor
 from reportgen.manifest import Manifest, load_manifest
 from reportgen.periods import index_labels, period_label
+from reportgen.progress import Progress as ProgressDisplay
+from reportgen.progress import as_progress
 from reportgen.provenance import build_time, checksums_text, document_run_id, environment, run_id, sha256_bytes
-from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dumps, results_to_dict
-from reportgen.sources import Column, Table, canonical_table_hash, parse_period, read_table, resolve_data_path
+from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dump, results_to_dict
+from reportgen.sources import (
+    Column,
+    Table,
+    canonical_table_hash,
+    convert_frequency,
+    parse_period,
+    read_table,
+    resolve_data_path,
+)
 from reportgen.stats.checks import check_magnitude, check_variation
 from reportgen.stats.methods import methods_text
 from reportgen.stats.order import integration_order
 from reportgen.stats.regression import assess_regression
-from reportgen.stats.types import RegressionAssessment, StatsSettings
+from reportgen.stats.types import OrderVerdict, RegressionAssessment, StatsSettings
 from reportgen.transforms import apply_transforms, lineage_of
 
-#: Output formats besides results.json, which is always written.
-FORMATS = ("html", "pdf")
+#: Output formats besides results.json, which is always written: the HTML and PDF dossier, and every table as
+#: CSV and LaTeX under tables/.
+FORMATS = ("html", "pdf", "tables")
 #: The file that marks a folder as a reportgen dossier.
 RESULTS_FILE = "results.json"
 #: The SHA-256 of every other file of the dossier folder (sha256sum format, sorted), written last.
 CHECKSUMS_FILE = "checksums.sha256"
+#: The folder of the tables as CSV and LaTeX files (format ``tables``).
+TABLES_FOLDER = "tables"
 #: The archive bundle, written when asked (``--bundle``).
 BUNDLE_FILE = "bundle.zip"
+#: Settings that choose where the statistics run, not what they compute: not recorded in results.json.
+EXECUTION_SETTINGS = frozenset({"executor"})
 
-Progress = Callable[[str], None]
+#: What ``progress`` may be: a :class:`reportgen.progress.Progress`, a callable of one sentence, or None.
+Progress = ProgressDisplay | Callable[[str], object] | None
 
 
 @dataclass(frozen=True, slots=True)
@@ -74,10 +96,7 @@ class RunOutcome:
     out_dir: Path
     files: tuple[Path, ...]
     document: Mapping[str, Any]
-
-
-def _quiet(_: str) -> None:
-    return None
+    results: Results | None = None  # the analysis behind the document (its run id is the document's)
 
 
 def outside_project(manifest: Manifest, relative: str) -> str | None:
@@ -101,7 +120,11 @@ def load_tables(manifest: Manifest) -> dict[str, Table]:
         tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
                                   manifest.locate("datasets", name, "path"),
                                   manifest.locate("datasets", name, "index"), missing=spec.missing, sort=spec.sort,
-                                  shown_path=str(manifest.display_path.parent / spec.path))
+                                  shown_path=str(manifest.display_path.parent / spec.path), file_format=spec.format,
+                                  sheet=spec.sheet, cells=spec.range,
+                                  sheet_where=manifest.locate("datasets", name, "sheet"),
+                                  range_where=manifest.locate("datasets", name, "range"), query=spec.query,
+                                  query_where=manifest.locate("datasets", name, "query"))
     return tables
 
 
@@ -113,6 +136,7 @@ class BuiltSeries:
     lineage: str
     notes: tuple[str, ...]
     column: Column
+    frequency: str  # after any conversion of the dataset
 
 
 def _too_short(manifest: Manifest, name: str) -> str:
@@ -133,10 +157,17 @@ def build_series(manifest: Manifest, tables: Mapping[str, Table]) -> dict[str, B
                          f"{period_label(raw.index[-1])}; the dataset runs from {period_label(table.periods[0])} "
                          f"to {period_label(table.periods[-1])}")
         notes.extend(column.describe())
+        frequency = table.frequency
+        conversion = manifest.spec.datasets[spec.dataset].convert
+        if conversion is not None:
+            column, note = convert_frequency(column, table.frequency, conversion.to, conversion.how,
+                                             manifest.locate("datasets", spec.dataset, "convert"))
+            raw, frequency = column.values, conversion.to
+            notes.append(note)
         steps = manifest.transforms[name]
-        values = apply_transforms(raw, steps, table.frequency, manifest.locate("series", name, "transform"))
-        built[name] = BuiltSeries(values.rename(name), lineage_of(spec.column, steps, table.frequency),
-                                  tuple(notes), column)
+        values = apply_transforms(raw, steps, frequency, manifest.locate("series", name, "transform"))
+        built[name] = BuiltSeries(values.rename(name), lineage_of(spec.column, steps, frequency),
+                                  tuple(notes), column, frequency)
     return built
 
 
@@ -204,75 +235,215 @@ def _infeasible(name: str, formula_text: str, dependent: str, regressors: tuple[
         levels=None)
 
 
-def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _quiet) -> Results:
-    """Run every stage up to the results (no files written)."""
+# ---------------------------------------------------------------- the work units of the statistics stages
+#
+# A task is a small picklable value (a series' values and periods, or a regression's aligned
+# sample, with the settings); its function is module-level, so that worker processes and Dask
+# workers can run it. A catalogue error raised inside a task comes back as a Failure and is
+# raised here, in manifest order, exactly as a serial run would raise it.
+
+
+@dataclass(frozen=True, slots=True)
+class Failure:
+    """A catalogue error raised inside a task, carried back to be raised by the runner."""
+
+    kind: type[ReportgenError]
+    message: str
+    hint: str | None
+    location: Location | None
+
+    @classmethod
+    def of(cls, error: ReportgenError) -> Failure:
+        return cls(type(error), error.message, error.hint, error.location)
+
+    def error(self, location: Location | None = None) -> ReportgenError:
+        """The error to raise, at ``location`` (else where it was raised)."""
+        return self.kind(self.message, location=location or self.location, hint=self.hint)
+
+
+@dataclass(frozen=True, slots=True)
+class OrderTask:
+    """The order of integration of one series: its values and periods, the settings, its override."""
+
+    name: str
+    values: np.ndarray
+    index: pd.PeriodIndex
+    settings: StatsSettings
+    deterministic: str | None
+
+
+@dataclass(frozen=True, slots=True)
+class OrderOutcome:
+    """A series' verdict and the library warnings caught around it."""
+
+    verdict: OrderVerdict
+    warnings: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class RegressionTask:
+    """One regression on its aligned sample, with the orders and fragility of its variables."""
+
+    name: str
+    formula: str
+    dependent: str
+    regressors: tuple[str, ...]
+    data: pd.DataFrame
+    orders: dict[str, int | None]
+    fragile: dict[str, str]
+    settings: StatsSettings
+
+
+@dataclass(frozen=True, slots=True)
+class RegressionOutcome:
+    """A regression's assessment, or why its sample is too short to estimate it."""
+
+    assessment: RegressionAssessment | None
+    insufficient: str | None = None  # the message of the insufficient-data error
+
+
+def order_of_integration(task: OrderTask) -> OrderOutcome | Failure:
+    """Check and test one series (the function worker processes run for the first stage)."""
+    values = pd.Series(task.values, index=task.index, name=task.name)
+    try:
+        check_magnitude(task.name, values)
+        check_variation(task.name, values)
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            verdict = integration_order(task.name, values, task.settings, task.deterministic)
+    except ReportgenError as error:
+        return Failure.of(error)
+    return OrderOutcome(verdict, tuple(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught)))
+
+
+def regression_assessment(task: RegressionTask) -> RegressionOutcome | Failure:
+    """Assess one regression (the function worker processes run for the second stage)."""
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            assessment = assess_regression(task.name, task.formula, task.dependent, task.regressors, task.data,
+                                           task.orders, task.settings, fragile_orders=task.fragile)
+    except InsufficientDataError as error:
+        return RegressionOutcome(None, error.message)
+    except ReportgenError as error:
+        return Failure.of(error)
+    escaped = tuple(f"{w.category.__name__}: {w.message}" for w in caught)
+    if escaped:  # assess_regression keeps its own; anything else is kept here rather than lost
+        assessment = dataclasses.replace(assessment, warnings=tuple(dict.fromkeys((*assessment.warnings, *escaped))))
+    return RegressionOutcome(assessment)
+
+
+def _digest(array: np.ndarray) -> str:
+    return sha256_bytes(np.ascontiguousarray(array, dtype="<f8").tobytes())
+
+
+def _periods_digest(index: pd.PeriodIndex) -> dict[str, str]:
+    return {"frequency": index.freqstr, "ordinals": sha256_bytes(np.ascontiguousarray(index.asi8, "<i8").tobytes())}
+
+
+def order_key(task: OrderTask) -> str:
+    """The cache key of a series' verdict: its name (it seeds the simulations), values, periods, settings."""
+    return content_key("order", {"name": task.name, "values": _digest(task.values), "nobs": len(task.values),
+                                 "periods": _periods_digest(task.index), "settings": dataclasses.asdict(task.settings),
+                                 "deterministic": task.deterministic})
+
+
+def regression_key(task: RegressionTask) -> str:
+    """The cache key of an assessment: the regression, its aligned sample, the orders and fragility, settings."""
+    return content_key("regression", {
+        "name": task.name, "formula": task.formula, "dependent": task.dependent, "regressors": list(task.regressors),
+        "columns": [str(column) for column in task.data.columns], "shape": list(task.data.shape),
+        "values": _digest(task.data.to_numpy(dtype=float)), "periods": _periods_digest(task.data.index),
+        "orders": task.orders, "fragile": task.fragile, "settings": dataclasses.asdict(task.settings)})
+
+
+TaskT = TypeVar("TaskT")
+OutcomeT = TypeVar("OutcomeT")
+
+
+def _run_stage(stage: str, kind: str, tasks: Sequence[TaskT], function: Callable[[TaskT], OutcomeT | Failure],
+               key: Callable[[TaskT], str], outcome_type: type[OutcomeT], names: Sequence[str], executor: Executor,
+               cache: ResultCache | None, progress: ProgressDisplay) -> Iterator[OutcomeT | Failure]:
+    """The outcome of every task in task order: from the cache where it holds one, else computed.
+
+    Computed outcomes are stored as they complete; failures are never stored. Progress counts
+    the cached outcomes at once and the computed ones as they complete.
+    """
+    progress.start(stage, len(tasks))
+    keys = [key(task) for task in tasks] if cache is not None else []
+    found: dict[int, OutcomeT] = {}
+    if cache is not None:
+        for index, task_key in enumerate(keys):
+            stored = cache.load(kind, task_key, outcome_type)
+            if stored is not None:
+                found[index] = stored
+        if found:
+            progress.advance(stage, len(found))
+    missing = [index for index in range(len(tasks)) if index not in found]
+
+    def completed(position: int, outcome: OutcomeT | Failure) -> None:
+        index = missing[position]
+        if cache is not None and not isinstance(outcome, Failure):
+            cache.store(kind, keys[index], outcome)
+        progress.advance(stage, item=names[index])
+
+    computed = executor.map(function, [tasks[index] for index in missing], completed)
+    try:
+        for index in range(len(tasks)):
+            yield found.pop(index) if index in found else next(computed)
+    finally:
+        close = getattr(computed, "close", None)
+        if close is not None:
+            close()
+    progress.finish(stage)
+
+
+def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = None, *,
+            executor: Executor | None = None, cache: ResultCache | None = None) -> Results:
+    """Run every stage up to the results (no files written).
+
+    The orders of integration and the regressions run on ``executor`` (default: one after
+    another in this process) and come from ``cache`` where it holds them; the results are the
+    same either way, to the byte.
+    """
+    display = as_progress(progress)
+    executor = executor if executor is not None else SerialExecutor()
     settings = _stats_settings(manifest)
-    progress("reading data")
+    display.start("reading data")
     tables = load_tables(manifest)
     built = build_series(manifest, tables)
     refuse_short_series(manifest, built)
-    frequencies = {name: tables[manifest.spec.series[name].dataset].frequency for name in built}
+    frequencies = {name: item.frequency for name, item in built.items()}
+    display.finish("reading data")
+
+    order_tasks = [OrderTask(name, item.values.to_numpy(dtype=float), item.values.index, settings,
+                             manifest.spec.series[name].deterministic) for name, item in built.items()]
+    verdicts: dict[str, OrderOutcome] = {}
+    outcomes = _run_stage("order of integration", "order", order_tasks, order_of_integration, order_key, OrderOutcome,
+                          list(built), executor, cache, display)
+    for task, outcome in zip(order_tasks, outcomes, strict=True):
+        if isinstance(outcome, Failure):
+            outcomes.close()
+            located = issubclass(outcome.kind, (ConstantSeriesError, SeriesScaleError))
+            raise outcome.error(manifest.locate("series", task.name) if located else None) from None
+        verdicts[task.name] = outcome
 
     records: dict[str, SeriesRecord] = {}
-    for position, (name, item) in enumerate(built.items(), start=1):
-        values, lineage, notes = item.values, item.lineage, item.notes
-        progress(f"order of integration {position}/{len(built)}: {name}")
-        spec = manifest.spec.series[name]
-        try:
-            check_magnitude(name, values)
-            check_variation(name, values)
-        except (ConstantSeriesError, SeriesScaleError) as error:
-            raise type(error)(error.message, location=manifest.locate("series", name), hint=error.hint) from None
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("always")
-            verdict = integration_order(name, values, settings, spec.deterministic)
-        extra = tuple(dict.fromkeys(f"{w.category.__name__}: {w.message}" for w in caught))
+    for name, item in built.items():
+        values, spec, outcome = item.values, manifest.spec.series[name], verdicts[name]
         records[name] = SeriesRecord(
-            name=name, label=spec.label or lineage, dataset=spec.dataset, column=spec.column,
+            name=name, label=spec.label or item.lineage, dataset=spec.dataset, column=spec.column,
             transforms=tuple(step.name if step.parameter is None else f"{step.name}:{step.parameter}"
                              for step in manifest.transforms[name]),
-            lineage=lineage, frequency=frequencies[name], start=period_label(values.index[0]),
+            lineage=item.lineage, frequency=frequencies[name], start=period_label(values.index[0]),
             end=period_label(values.index[-1]), dates=index_labels(values.index),
-            values=tuple(float(v) for v in values.to_numpy()), verdict=verdict, notes=notes + extra,
-            missing_policy=item.column.policy, dropped=item.column.dropped, interpolated=item.column.interpolated)
+            values=tuple(float(v) for v in values.to_numpy()), verdict=outcome.verdict,
+            notes=item.notes + outcome.warnings, missing_policy=item.column.policy, dropped=item.column.dropped,
+            interpolated=item.column.interpolated)
 
-    assessments: dict[str, RegressionAssessment] = {}
-    series_values = {name: item.values for name, item in built.items()}
-    for position, (name, formula) in enumerate(manifest.formulas.items(), start=1):
-        progress(f"regression {position}/{len(manifest.formulas)}: {name}")
-        data = regression_data(manifest, name, series_values, frequencies)
-        orders = {variable: records[variable].verdict.order for variable in formula.variables}
-        policy = manifest.spec.regressions[name].too_short or manifest.spec.settings.too_short
-        if data.empty:
-            reason = "the variables share no periods within the sample window"
-            if policy == "error":
-                raise SampleTooShortError(location=manifest.locate("regressions", name), problem=reason,
-                                          hint="widen the sample window, or set 'too_short: report' to keep the "
-                                               "regression in the dossier as inconclusive")
-            assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders, reason)
-            continue
-        try:
-            with warnings.catch_warnings(record=True) as caught:
-                warnings.simplefilter("always")
-                fragile = {variable: records[variable].verdict.fragile_reason or "fragile order"
-                           for variable in formula.variables if records[variable].verdict.fragile}
-                assessment = assess_regression(name, formula.text, formula.dependent, formula.regressors,
-                                               data, orders, settings, fragile_orders=fragile)
-            escaped = tuple(f"{w.category.__name__}: {w.message}" for w in caught)
-            if escaped:  # assess_regression keeps its own; anything else is kept here rather than lost
-                assessment = dataclasses.replace(
-                    assessment, warnings=tuple(dict.fromkeys((*assessment.warnings, *escaped))))
-            assessments[name] = assessment
-        except InsufficientDataError as error:
-            if policy == "error":
-                raise SampleTooShortError(location=manifest.locate("regressions", name), problem=error.message,
-                                          hint="use a longer sample or fewer regressors, or set 'too_short: report' "
-                                               "to keep the regression in the dossier as inconclusive") from None
-            assessments[name] = _infeasible(name, formula.text, formula.dependent, formula.regressors, orders,
-                                            error.message)
-        except DataError as error:
-            raise type(error)(error.message, location=manifest.locate("regressions", name, "formula"),
-                              hint=error.hint) from None
+    assessments = _assess_regressions(manifest, built, records, frequencies, settings, executor, cache, display)
+    if cache is not None:
+        _report_cache(cache, display)
 
     inputs = [InputRecord(role="manifest", name="manifest", path=str(manifest.path),
                           relative_path=manifest.path.name, sha256=sha256_bytes(manifest.raw),
@@ -286,9 +457,11 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
             name=name, path=table.display_path, index_column=table.index_column, frequency=table.frequency,
             frequency_source=table.frequency_source, rows=len(table.periods), start=period_label(table.periods[0]),
             end=period_label(table.periods[-1]), columns=tuple(table.cells), table_sha256=canonical_table_hash(table),
-            notes=table.notes + ((outside,) if outside else ()))
+            notes=table.notes + ((outside,) if outside else ()), query=manifest.spec.datasets[name].query,
+            query_sha256=None if manifest.spec.datasets[name].query is None
+            else sha256_bytes(str(manifest.spec.datasets[name].query).encode()))
     env = environment(command, manifest.base_dir)
-    settings_record = manifest.spec.settings.model_dump()
+    settings_record = manifest.spec.settings.model_dump(exclude=EXECUTION_SETTINGS)
     identifier = run_id(__version__, [record.sha256 for record in inputs], settings_record, env["packages"],
                         table_hashes=[record.table_sha256 for record in datasets.values()],
                         python=env["python"], platform_name=env["platform"], git=env["git"])
@@ -300,11 +473,106 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = _qu
                    methods=methods_text())
 
 
+def _assess_regressions(manifest: Manifest, built: Mapping[str, BuiltSeries], records: Mapping[str, SeriesRecord],
+                        frequencies: Mapping[str, str], settings: StatsSettings, executor: Executor,
+                        cache: ResultCache | None, progress: ProgressDisplay) -> dict[str, RegressionAssessment]:
+    """Every regression's assessment, in manifest order; errors raised as a serial run raises them.
+
+    A regression whose sample cannot be formed (mixed frequencies, a bad sample bound, no common
+    period) stops the run there: the regressions before it are assessed first, so an error of
+    theirs is the one raised, as it would be one regression at a time.
+    """
+    series_values = {name: item.values for name, item in built.items()}
+    planned: list[tuple[str, RegressionTask | RegressionAssessment]] = []
+    stop: ReportgenError | None = None
+    for name, formula in manifest.formulas.items():
+        orders = {variable: records[variable].verdict.order for variable in formula.variables}
+        policy = _regression_policy(manifest, name)
+        try:
+            data = regression_data(manifest, name, series_values, frequencies)
+        except ReportgenError as error:
+            stop = error
+            break
+        if data.empty:
+            reason = "the variables share no periods within the sample window"
+            if policy == "error":
+                stop = SampleTooShortError(location=manifest.locate("regressions", name), problem=reason,
+                                           hint="widen the sample window, or set 'too_short: report' to keep the "
+                                                "regression in the dossier as inconclusive")
+                break
+            planned.append((name, _infeasible(name, formula.text, formula.dependent, formula.regressors, orders,
+                                              reason)))
+            continue
+        fragile = {variable: records[variable].verdict.fragile_reason or "fragile order"
+                   for variable in formula.variables if records[variable].verdict.fragile}
+        planned.append((name, RegressionTask(name, formula.text, formula.dependent, tuple(formula.regressors), data,
+                                             orders, fragile, settings)))
+
+    tasks = [plan for _, plan in planned if isinstance(plan, RegressionTask)]
+    outcomes = _run_stage("regressions", "regression", tasks, regression_assessment, regression_key, RegressionOutcome,
+                          [task.name for task in tasks], executor, cache, progress)
+    assessments: dict[str, RegressionAssessment] = {}
+    for name, plan in planned:
+        if isinstance(plan, RegressionAssessment):
+            assessments[name] = plan
+            continue
+        outcome = next(outcomes)
+        if isinstance(outcome, Failure):
+            outcomes.close()
+            located = issubclass(outcome.kind, DataError)
+            raise outcome.error(manifest.locate("regressions", name, "formula") if located else None) from None
+        if outcome.assessment is not None:
+            assessments[name] = outcome.assessment
+            continue
+        reason = outcome.insufficient or "too little data"
+        if _regression_policy(manifest, name) == "error":
+            outcomes.close()
+            raise SampleTooShortError(location=manifest.locate("regressions", name), problem=reason,
+                                      hint="use a longer sample or fewer regressors, or set 'too_short: report' "
+                                           "to keep the regression in the dossier as inconclusive")
+        assessments[name] = _infeasible(name, plan.formula, plan.dependent, plan.regressors, plan.orders, reason)
+    for _ in outcomes:  # run the stage to its end (its progress line finishes)
+        pass
+    if stop is not None:
+        raise stop
+    return assessments
+
+
+def _regression_policy(manifest: Manifest, name: str) -> str:
+    return manifest.spec.regressions[name].too_short or manifest.spec.settings.too_short
+
+
+def _report_cache(cache: ResultCache, progress: ProgressDisplay) -> None:
+    stats = cache.stats
+    rejected = f"; {stats.rejected} stored entries not trusted, computed again" if stats.rejected else ""
+    progress.note(f"cache {cache.folder}: {stats.hits} of {stats.hits + stats.misses} results reused{rejected}")
+    if stats.unwritable is not None:
+        progress.note(f"cache {cache.folder}: results could not be stored ({stats.unwritable}); "
+                      "the next run computes them again")
+
+
+#: How a top-level ``inputs`` key starts in a results.json that :func:`reportgen.results.dumps` wrote.
+_INPUTS_KEY = '\n  "inputs": '
+
+
 def recorded_manifest(results_file: Path) -> Path | None:
-    """The manifest path (resolved at its run) that a results.json records, or None if unreadable."""
+    """The manifest path (resolved at its run) that a results.json records, or None if unreadable.
+
+    In a complete file as reportgen writes it only the ``inputs`` list is parsed (a results.json of
+    many series runs to tens of megabytes); any other file is parsed whole.
+    """
     try:
-        document = json.loads(results_file.read_text(encoding="utf-8"))
-        return Path(next(entry["path"] for entry in document["inputs"] if entry["role"] == "manifest"))
+        text = results_file.read_text(encoding="utf-8")
+        inputs: Any = None
+        start = text.find(_INPUTS_KEY)
+        if text.startswith("{\n") and text.endswith("\n}\n") and start > 0:
+            try:
+                inputs, _ = json.JSONDecoder().raw_decode(text, start + len(_INPUTS_KEY))
+            except ValueError:
+                inputs = None
+        if not isinstance(inputs, list):
+            inputs = json.loads(text)["inputs"]
+        return Path(next(entry["path"] for entry in inputs if entry["role"] == "manifest"))
     except (OSError, ValueError, KeyError, TypeError, StopIteration):
         return None
 
@@ -384,7 +652,10 @@ def remove_stale_staging(out_dir: Path, started: float) -> list[str]:
 
 def write_checksums(folder: Path, names: Sequence[str]) -> Path:
     """Write ``folder/checksums.sha256`` (sha256sum format, sorted) listing the named files."""
-    digests = {name: sha256_bytes((folder / name).read_bytes()) for name in names}
+    digests: dict[str, str] = {}
+    for name in names:
+        with (folder / name).open("rb") as stream:
+            digests[name] = hashlib.file_digest(stream, "sha256").hexdigest()
     target = folder / CHECKSUMS_FILE
     target.write_text(checksums_text(digests), encoding="utf-8", newline="\n")
     return target
@@ -396,6 +667,8 @@ def _sync_folder(folder: Path) -> None:
         if path.is_file():
             with path.open("rb") as stream:
                 os.fsync(stream.fileno())
+        elif path.is_dir() and not path.is_symlink():
+            _sync_folder(path)
     _sync_directory(folder)
 
 
@@ -412,21 +685,38 @@ def _sync_directory(folder: Path) -> None:
         os.close(descriptor)
 
 
+def draw_charts(document: Mapping[str, Any], executor: Executor) -> dict[str, str]:
+    """Every chart of the dossier (:func:`reportgen.render.plots.render_plots`), on ``executor`` where it takes one.
+
+    The hook for drawing charts in parallel: a ``render_plots`` with an ``executor`` parameter is
+    given the run's executor (the same worker processes or cluster as the statistics).
+    """
+    import inspect
+
+    from reportgen.render.plots import render_plots
+
+    if "executor" in inspect.signature(render_plots).parameters:
+        return render_plots(document, executor=executor)  # type: ignore[call-arg]
+    return render_plots(document)
+
+
 def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[str], *, manifest: Manifest,
-                  template_dirs: Sequence[Path] = (), progress: Progress = _quiet, bundle: bool = False,
-                  force: bool = False, started: float | None = None) -> RunOutcome:
+                  template_dirs: Sequence[Path] = (), progress: Progress = None, bundle: bool = False,
+                  force: bool = False, started: float | None = None, executor: Executor | None = None) -> RunOutcome:
     """Write results.json, the asked-for renderings, the bundle and checksums.sha256, atomically.
 
     Everything is written into a staging folder ``.NAME.partial-PID-XXXX`` beside ``out_dir`` (PID
     is this process) and swapped into place when complete; ``checksums.sha256`` is written last
     and lists every other file. Stale staging folders of killed runs are tidied first (see
-    :func:`remove_stale_staging`); each one handled is reported through ``progress``.
+    :func:`remove_stale_staging`); each one handled is reported through ``progress``. The charts
+    are drawn on ``executor`` where the chart module accepts one (see :func:`draw_charts`).
     """
+    display = as_progress(progress)
     _check_out_dir(out_dir, manifest.path, force=force)
     try:
         out_dir.parent.mkdir(parents=True, exist_ok=True)
         for message in remove_stale_staging(out_dir, time.time() if started is None else started):
-            progress(message)
+            display.note(message)
         staging = Path(tempfile.mkdtemp(prefix=f".{out_dir.name}.partial-{os.getpid()}-", dir=out_dir.parent))
     except OSError as error:
         if error.errno not in _UNWRITABLE:
@@ -436,30 +726,41 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
     try:
         staging.chmod(_folder_mode())
         written = [RESULTS_FILE]
-        (staging / RESULTS_FILE).write_text(dumps(document), encoding="utf-8")
+        with (staging / RESULTS_FILE).open("w", encoding="utf-8") as stream:
+            dump(document, stream)
         if "html" in formats or "pdf" in formats:
             from reportgen.render.html import render_html
-            from reportgen.render.plots import render_plots
 
-            progress("drawing charts")
-            plots = render_plots(document)
-            progress("writing HTML")
+            display.start("charts")
+            plots = draw_charts(document, executor if executor is not None else SerialExecutor())
+            display.finish("charts")
+            display.start("HTML")
             html = render_html(document, plots, template_dirs)
+            display.finish("HTML")
             if "html" in formats:
                 (staging / "dossier.html").write_text(html, encoding="utf-8")
                 written.append("dossier.html")
             if "pdf" in formats:
                 from reportgen.render.pdf import render_pdf
 
-                progress("writing PDF")
+                display.start("PDF")
                 render_pdf(html, staging / "dossier.pdf", base_dir=manifest.base_dir, created=document["created"],
                            attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=template_dirs)
+                display.finish("PDF")
                 written.append("dossier.pdf")
+        if "tables" in formats:
+            from reportgen.render.tables import write_tables
+
+            display.start("tables")
+            tables = write_tables(document, staging / TABLES_FOLDER)
+            display.finish("tables")
+            written += [path.relative_to(staging).as_posix() for path in tables]
         if bundle:
             from reportgen.bundle import write_bundle
 
-            progress("writing the archive bundle")
+            display.start("bundle")
             write_bundle(staging / BUNDLE_FILE, document, {name: staging / name for name in written}, manifest)
+            display.finish("bundle")
             written.append(BUNDLE_FILE)
         write_checksums(staging, written)
         written.append(CHECKSUMS_FILE)
@@ -541,28 +842,58 @@ def _swap_into_place(staging: Path, out_dir: Path) -> None:
         os.replace(staging, out_dir)
 
 
+def open_executor(manifest: Manifest, jobs: int | None = 1, cluster: str | None = None) -> Executor:
+    """The executor of a run: ``cluster`` (a Dask scheduler address), else the manifest's
+    ``settings.executor``, else ``jobs`` on this machine (see :func:`reportgen.executor.make_executor`)."""
+    from_manifest = cluster is None and manifest.spec.settings.executor == "dask"
+    try:
+        return make_executor(jobs, cluster=cluster, dask=from_manifest)
+    except DaskMissingError as error:
+        if not from_manifest:
+            raise
+        raise DaskMissingError(error.message, location=manifest.locate("settings", "executor"),
+                               hint=error.hint) from None
+
+
 def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] = FORMATS, *,
         template_dirs: Sequence[Path] = (), command: Sequence[str] | None = None,
-        progress: Progress = _quiet, bundle: bool = False, force: bool = False) -> RunOutcome:
+        progress: Progress = None, bundle: bool = False, force: bool = False, jobs: int | None = 1,
+        cluster: str | None = None, executor: Executor | None = None,
+        cache: ResultCache | Path | str | None = None) -> RunOutcome:
     """Load, analyse and write a dossier; the one function the command line and notebooks call.
 
     ``bundle`` also writes ``bundle.zip`` (see :mod:`reportgen.bundle`); ``force`` replaces a
     dossier of another manifest in ``out_dir``. The run id is recomputed from the results
     document (:func:`reportgen.provenance.document_run_id`), so it always covers every input
     hash, the table hashes, the settings, the software and the git state.
+
+    The statistics run on ``executor`` when one is given (and left open), else on one made for
+    ``jobs`` and ``cluster`` (:func:`open_executor`; closed at the end): by default one after
+    another in this process. ``cache`` (a :class:`~reportgen.cache.ResultCache` or its folder)
+    reuses the verdicts and assessments of earlier runs; by default nothing is cached. Neither
+    changes a byte of the results.
     """
     started = time.time()
+    display = as_progress(progress)
     manifest = load_manifest(manifest_path)
     out = Path(out_dir)
     for message in remove_stale_staging(out, started):
-        progress(message)
+        display.note(message)
     _check_out_dir(out, manifest.path, force=force)
     if bundle:
         from reportgen.bundle import check_bundle_inputs
 
         check_bundle_inputs(manifest)
-    results = analyse(manifest, command if command is not None else sys.argv, progress)
-    document = results_to_dict(results)
-    document["run_id"] = document_run_id(document)
-    return write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
-                         progress=progress, bundle=bundle, force=force, started=started)
+    store = cache if isinstance(cache, ResultCache) or cache is None else ResultCache(cache)
+    chosen = executor if executor is not None else open_executor(manifest, jobs, cluster)
+    try:
+        results = analyse(manifest, command if command is not None else sys.argv, display, executor=chosen,
+                          cache=store)
+        document = results_to_dict(results)
+        document["run_id"] = document_run_id(document)
+        outcome = write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
+                                progress=display, bundle=bundle, force=force, started=started, executor=chosen)
+    finally:
+        if executor is None:
+            chosen.close()
+    return dataclasses.replace(outcome, results=dataclasses.replace(results, run_id=document["run_id"]))

@@ -25,10 +25,13 @@ import numpy as np
 import pandas as pd
 
 from reportgen.errors import (
+    CellRangeError,
     ColumnEmptyError,
     ColumnMissingError,
+    ConversionError,
     DataEmptyError,
     DataEncodingError,
+    DataFormatUnknownError,
     DataIsFolderError,
     DataNotFoundError,
     DataUnreadableError,
@@ -44,6 +47,9 @@ from reportgen.errors import (
     MissingValuesError,
     NonNumericCellsError,
     RaggedRowsError,
+    SheetMissingError,
+    SourcePackageMissingError,
+    SqlQueryError,
 )
 from reportgen.periods import period_label
 
@@ -97,11 +103,12 @@ class Table:
     notes: tuple[str, ...]
     missing: str = "error"  # the dataset's missing-data policy
     inserted: tuple[str, ...] = ()  # calendar periods without a row, added as empty (policy interpolate)
+    unit: str = "line"  # how messages name a row of the file: "line" (CSV) or "row" (Parquet, Excel)
 
     def _row(self, position: int) -> str:
         label = period_label(self.periods[position])
         line = self.lines[position]
-        return f"line {line} ({label})" if line else f"{label} (no row in the file)"
+        return f"{self.unit} {line} ({label})" if line else f"{label} (no row in the file)"
 
     def column(self, name: str, where: Location, policy: str | None = None) -> Column:
         """A column as numbers under a missing-data policy; errors name the line, the column and the value.
@@ -127,10 +134,10 @@ class Table:
                     raise ValueError(stripped)
                 number = float(stripped.replace("_", "x"))
             except ValueError:
-                bad.append(f"line {self.lines[position]} ({period_label(self.periods[position])}): {text!r}")
+                bad.append(f"{self._row(position)}: {text!r}")
                 continue
             if not math.isfinite(number):
-                bad.append(f"line {self.lines[position]} ({period_label(self.periods[position])}): {text!r}")
+                bad.append(f"{self._row(position)}: {text!r}")
                 continue
             values[position] = number
         if bad:
@@ -238,26 +245,25 @@ def _infer_frequency(kinds: set[str], dates: list[pd.Timestamp]) -> str | None:
     return None
 
 
-def read_table(name: str, path: Path, display_path: str, index_column: str, declared: str | None,
-               where: Location, index_where: Location, *, missing: str = "error", sort: bool = False,
-               shown_path: str | None = None) -> Table:
-    """Read a CSV dataset; every problem raises a catalogue error naming file, line and value.
+#: File formats a dataset may have, by the suffixes that imply them.
+FORMATS_BY_SUFFIX: dict[str, str] = {".csv": "csv", ".txt": "csv", ".parquet": "parquet", ".pq": "parquet",
+                                     ".xlsx": "excel", ".xlsm": "excel", ".sqlite": "sqlite", ".sqlite3": "sqlite",
+                                     ".db": "sqlite"}
+_SELECT = re.compile(r"\s*(?:--[^\n]*\n\s*|/\*.*?\*/\s*)*(select|with)\b", re.IGNORECASE | re.DOTALL)
 
-    ``missing`` is the dataset's missing-data policy: with ``interpolate`` a period of the
-    calendar that has no row becomes a row of empty cells (to be filled), otherwise it is an
-    error. ``sort`` lets rows out of date order be sorted (recorded in the notes) rather than refused.
-    ``shown_path`` is the file as errors locate it (from the current folder); messages and the
-    dossier use ``display_path``, the path as the manifest gives it.
-    """
-    here = shown_path or display_path
-    try:
-        raw = path.read_bytes()
-    except FileNotFoundError:
-        raise DataNotFoundError(location=where, file=display_path) from None
-    except IsADirectoryError:
-        raise DataIsFolderError(location=where, file=display_path) from None
-    except OSError as error:
-        raise DataUnreadableError(location=where, file=display_path, reason=error.strerror or str(error)) from None
+
+def data_format(display_path: str, declared: str | None, where: Location) -> str:
+    """The format of a data file: declared, else implied by its suffix."""
+    if declared is not None:
+        return declared
+    suffix = Path(display_path).suffix.lower()
+    if suffix not in FORMATS_BY_SUFFIX:
+        raise DataFormatUnknownError(location=where, file=display_path, suffix=suffix or "(none)")
+    return FORMATS_BY_SUFFIX[suffix]
+
+
+def _csv_rows(raw: bytes, here: str, display_path: str, where: Location) -> tuple[list[list[str]], list[int]]:
+    """The rows of a CSV file as text cells, with the line each row starts on."""
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError as error:
@@ -280,6 +286,184 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     except csv.Error as error:
         raise RaggedRowsError(location=Location(here, reader.line_num), file=display_path,
                               listing=f"line {reader.line_num} cannot be read as CSV ({error})") from None
+    return rows, numbers
+
+
+def _cell_text(value: object) -> str:
+    """A typed cell (Parquet, Excel) as the text a CSV would hold: numbers exactly, dates as ISO dates."""
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return str(value)
+    if isinstance(value, int | np.integer):
+        return str(int(value))
+    if isinstance(value, float | np.floating):
+        number = float(value)
+        return "" if math.isnan(number) else repr(number)
+    if isinstance(value, datetime.datetime | pd.Timestamp):
+        if pd.isna(value):
+            return ""
+        moment = pd.Timestamp(value)
+        return moment.strftime("%Y-%m-%d") if moment == moment.normalize() else moment.isoformat(sep=" ")
+    if isinstance(value, datetime.date):
+        return value.isoformat()
+    return str(value)
+
+
+def _needs(module: str, extra: str, file: str, where: Location) -> object:
+    """Import an optional reader, or say how to install it."""
+    import importlib
+
+    try:
+        return importlib.import_module(module)
+    except ImportError:
+        raise SourcePackageMissingError(location=where, file=file, package=module, extra=extra) from None
+
+
+def _parquet_rows(raw: bytes, display_path: str, where: Location) -> tuple[list[list[str]], list[int]]:
+    """The rows of a Parquet file as text cells; row 1 is the header (the column names)."""
+    parquet = _needs("pyarrow.parquet", "parquet", display_path, where)
+    try:
+        table = parquet.read_table(io.BytesIO(raw))  # type: ignore[attr-defined]
+    except Exception as error:  # pyarrow raises its own ArrowInvalid and OSError subclasses
+        raise DataUnreadableError(location=where, file=display_path,
+                                  reason=f"not a readable Parquet file ({error})") from None
+    columns = [table.column(position).to_pylist() for position in range(table.num_columns)]
+    rows = [list(table.column_names)] + [[_cell_text(column[row]) for column in columns]
+                                         for row in range(table.num_rows)]
+    return rows, list(range(1, len(rows) + 1))
+
+
+def _excel_rows(raw: bytes, display_path: str, sheet: str | None, cells: str | None, where: Location,
+                sheet_where: Location, range_where: Location) -> tuple[list[list[str]], list[int]]:
+    """The rows of an Excel sheet (or of a cell range of it) as text cells, with their sheet row numbers."""
+    openpyxl = _needs("openpyxl", "excel", display_path, where)
+    try:
+        book = openpyxl.load_workbook(io.BytesIO(raw), read_only=True, data_only=True)  # type: ignore[attr-defined]
+    except Exception as error:  # zipfile, XML and openpyxl errors alike: the file is not a workbook
+        raise DataUnreadableError(location=where, file=display_path,
+                                  reason=f"not a readable Excel workbook ({type(error).__name__}: {error})") from None
+    try:
+        if sheet is not None and sheet not in book.sheetnames:
+            raise SheetMissingError(location=sheet_where, file=display_path, sheet=sheet,
+                                    sheets=", ".join(book.sheetnames))
+        worksheet = book[sheet] if sheet is not None else book.worksheets[0]
+        bounds: dict[str, int] = {}
+        if cells is not None:
+            from openpyxl.utils.cell import range_boundaries
+
+            try:
+                first_column, first_row, last_column, last_row = range_boundaries(cells.upper())
+            except (ValueError, TypeError):
+                raise CellRangeError(location=range_where, range=cells) from None
+            if None in (first_column, first_row, last_column, last_row):
+                raise CellRangeError(location=range_where, range=cells)
+            bounds = {"min_row": first_row, "max_row": last_row, "min_col": first_column, "max_col": last_column}
+        start = bounds.get("min_row", 1)
+        rows: list[list[str]] = []
+        numbers: list[int] = []
+        for offset, values in enumerate(worksheet.iter_rows(values_only=True, **bounds)):
+            row = [_cell_text(value) for value in values]
+            if any(cell.strip() for cell in row):
+                rows.append(row)
+                numbers.append(start + offset)
+    finally:
+        book.close()
+    width = max((len(row) for row in rows), default=0)  # read-only sheets may give short rows
+    rows = [row + [""] * (width - len(row)) for row in rows]
+    while rows and rows[0] and not rows[0][-1].strip() and all(not row[-1].strip() for row in rows):
+        rows = [row[:-1] for row in rows]  # columns empty throughout, right of the data
+    return rows, numbers
+
+
+def _sqlite_rows(raw: bytes, display_path: str, query: str | None, where: Location,
+                 query_where: Location) -> tuple[list[list[str]], list[int]]:
+    """The rows a SELECT query returns from an SQLite database file, through SQLAlchemy, read-only.
+
+    The query runs on a private copy of the bytes that were hashed (so the hash and the rows agree),
+    with an authorizer that allows reading only: no ATTACH (another file), no PRAGMA, no writes.
+    Row 1 is the header (the result's column names); the result's order is the file's row order.
+    """
+    if query is None:
+        raise SqlQueryError(location=where, problem=f"{display_path} is an SQLite database; say what to read",
+                            remedy="add query: \"SELECT month, sales FROM ledger ORDER BY month\" to the dataset")
+    if not _SELECT.match(query) or query.strip().rstrip(";").count(";"):
+        raise SqlQueryError(location=query_where, problem="the query must be one SELECT (or WITH ... SELECT) "
+                                                          "statement", remedy="remove other statements")
+    sqlalchemy = _needs("sqlalchemy", "sql", display_path, where)
+    import sqlite3
+    import tempfile
+
+    allowed = {sqlite3.SQLITE_SELECT, sqlite3.SQLITE_READ, sqlite3.SQLITE_FUNCTION}
+    recursive = getattr(sqlite3, "SQLITE_RECURSIVE", None)
+    if recursive is not None:
+        allowed.add(recursive)
+
+    def authorize(action: int, *_: object) -> int:
+        return sqlite3.SQLITE_OK if action in allowed else sqlite3.SQLITE_DENY
+
+    with tempfile.TemporaryDirectory(prefix="reportgen-sqlite-") as folder:
+        copy = Path(folder) / "snapshot.sqlite"
+        copy.write_bytes(raw)
+        engine = sqlalchemy.create_engine(f"sqlite:///file:{copy}?mode=ro&uri=true")  # type: ignore[attr-defined]
+        try:
+            with engine.connect() as connection:
+                connection.connection.driver_connection.set_authorizer(authorize)
+                result = connection.execute(sqlalchemy.text(query))  # type: ignore[attr-defined]
+                names = result.keys()
+                header = [str(column) for column in names]
+                records = [[_cell_text(value) for value in record] for record in result]
+        except sqlalchemy.exc.SQLAlchemyError as error:  # type: ignore[attr-defined]
+            reason = str(getattr(error, "orig", None) or error).splitlines()[0]
+            raise SqlQueryError(location=query_where, problem=f"the query on {display_path} failed: {reason}",
+                                remedy="check the table and column names (the database is opened read-only)"
+                                ) from None
+        finally:
+            engine.dispose()
+    rows = [header, *records]
+    return rows, list(range(1, len(rows) + 1))
+
+
+def read_table(name: str, path: Path, display_path: str, index_column: str, declared: str | None,
+               where: Location, index_where: Location, *, missing: str = "error", sort: bool = False,
+               shown_path: str | None = None, file_format: str | None = None, sheet: str | None = None,
+               cells: str | None = None, sheet_where: Location | None = None,
+               range_where: Location | None = None, query: str | None = None,
+               query_where: Location | None = None) -> Table:
+    """Read a dataset (CSV, Parquet or an Excel sheet); every problem raises a catalogue error naming file, line, value.
+
+    ``missing`` is the dataset's missing-data policy: with ``interpolate`` a period of the
+    calendar that has no row becomes a row of empty cells (to be filled), otherwise it is an
+    error. ``sort`` lets rows out of date order be sorted (recorded in the notes) rather than refused.
+    ``shown_path`` is the file as errors locate it (from the current folder); messages and the
+    dossier use ``display_path``, the path as the manifest gives it. ``file_format`` is the
+    declared format (else implied by the suffix); ``sheet`` and ``cells`` (``A3:F200``) choose
+    the part of a workbook to read. Typed cells are turned into the text a CSV would hold (numbers
+    exactly), so every format goes through the same date and number rules.
+    """
+    here = shown_path or display_path
+    kind = data_format(display_path, file_format, where)
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise DataNotFoundError(location=where, file=display_path) from None
+    except IsADirectoryError:
+        raise DataIsFolderError(location=where, file=display_path) from None
+    except OSError as error:
+        raise DataUnreadableError(location=where, file=display_path, reason=error.strerror or str(error)) from None
+    if kind == "parquet":
+        rows, numbers = _parquet_rows(raw, display_path, where)
+        unit = "row"
+    elif kind == "sqlite":
+        rows, numbers = _sqlite_rows(raw, display_path, query, where, query_where or where)
+        unit = "result row"
+    elif kind == "excel":
+        rows, numbers = _excel_rows(raw, display_path, sheet, cells, where, sheet_where or where,
+                                    range_where or where)
+        unit = "row"
+    else:
+        rows, numbers = _csv_rows(raw, here, display_path, where)
+        unit = "line"
     while rows and not any(cell.strip() for cell in rows[-1]):
         rows.pop()
         numbers.pop()
@@ -302,11 +486,11 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     ragged: list[tuple[int, str]] = []
     for line_number, row in zip(numbers[1:], body, strict=True):
         if len(row) != len(header):
-            ragged.append((line_number, f"line {line_number} has {len(row)} fields, the header {len(header)}"))
+            ragged.append((line_number, f"{unit} {line_number} has {len(row)} fields, the header {len(header)}"))
             continue
         kind = _date_kind(row[position])
         if kind is None:
-            unparsable.append((line_number, f"line {line_number}: {row[position]!r}"))
+            unparsable.append((line_number, f"{unit} {line_number}: {row[position]!r}"))
         else:
             parsed.append(kind)
     if ragged:
@@ -333,7 +517,7 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     duplicates: list[tuple[int, str]] = []
     for period, line in zip(periods, lines, strict=True):
         if period in seen:
-            duplicates.append((line, f"{period_label(period)} on lines {seen[period]} and {line}"))
+            duplicates.append((line, f"{period_label(period)} on {unit}s {seen[period]} and {line}"))
         else:
             seen[period] = line
     if duplicates:
@@ -342,7 +526,7 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     order = sorted(range(len(periods)), key=lambda i: periods[i])
     if order != list(range(len(periods))):
         steps_back = [i + 1 for i in range(len(periods) - 1) if periods[i + 1] < periods[i]]
-        backwards = [f"line {lines[i]} ({period_label(periods[i])} after {period_label(periods[i - 1])})"
+        backwards = [f"{unit} {lines[i]} ({period_label(periods[i])} after {period_label(periods[i - 1])})"
                      for i in steps_back]
         if not sort:
             raise DatesUnsortedError(location=Location(here, lines[steps_back[0]]), file=display_path,
@@ -369,7 +553,45 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     return Table(name=name, path=path, display_path=display_path, raw=raw, index_column=index_column,
                  frequency=frequency, frequency_source="declared" if declared else "inferred", periods=index,
                  lines=tuple(row_lines), cells={column: tuple(texts) for column, texts in cells.items()},
-                 notes=tuple(notes), missing=missing, inserted=tuple(inserted))
+                 notes=tuple(notes), missing=missing, inserted=tuple(inserted), unit=unit)
+
+
+def convert_frequency(column: Column, source: str, target: str, how: str, where: Location) -> tuple[Column, str]:
+    """A column combined into the periods of a coarser frequency, complete periods only; and a sentence saying so.
+
+    A target period is kept when the column covers it from its first day to its last (the
+    column's calendar has no gaps, so every period inside is present); ``how`` combines the
+    values: the ``mean`` or ``sum`` of the periods inside, or the ``last`` or ``first`` of them.
+    Dates left out and filled by the missing-data policy are those of the source frequency.
+    """
+    if _RANK[target] >= _RANK[source]:
+        raise ConversionError(location=where, problem=f"cannot convert {source} data to {target}: the target must "
+                                                      "be a coarser frequency",
+                              remedy="convert to annual, quarterly, monthly or weekly data coarser than the source")
+    values = column.values
+    starts = values.index.to_timestamp(how="start")
+    ends = values.index.to_timestamp(how="end")
+    targets = pd.PeriodIndex([period.asfreq(_PANDAS_FREQ[target], how="end") for period in values.index])
+    first_start, last_end = starts[0], ends[-1]
+    frame = pd.DataFrame({"value": values.to_numpy(), "target": targets})
+    grouped = frame.groupby("target", sort=True)["value"]
+    combined = {"mean": grouped.mean, "sum": grouped.sum, "last": grouped.last, "first": grouped.first}[how]()
+    keep = [period for period in combined.index
+            if period.start_time >= first_start and period.end_time <= last_end]
+    dropped = [period_label(period) for period in combined.index if period not in set(keep)]
+    if not keep:
+        raise ConversionError(location=where, problem=f"converting {source} data to {target} leaves no complete "
+                                                      f"{target} period ({period_label(values.index[0])} to "
+                                                      f"{period_label(values.index[-1])})",
+                              remedy="use a longer sample or a finer target frequency")
+    index = pd.PeriodIndex(keep, freq=_PANDAS_FREQ[target])
+    converted = pd.Series(combined.loc[keep].to_numpy(dtype=float), index=index, name=values.name)
+    note = (f"converted from {source} to {target}: the {how} of the {source} values in each {target} period; "
+            f"{len(keep)} complete period(s)")
+    if dropped:
+        note += f"; incomplete period(s) left out: {_listing(dropped)}"
+    return Column(values=converted, policy=column.policy, dropped=column.dropped,
+                  interpolated=column.interpolated), note
 
 
 def resolve_data_path(base_dir: Path, relative: str, where: Location) -> Path:

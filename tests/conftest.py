@@ -37,6 +37,14 @@ def simulated_csv(seed: int = 7, periods: int = 120) -> str:
     return "month,walk_a,walk_b,noise\n" + "\n".join(rows) + "\n"
 
 
+@pytest.fixture(autouse=True)
+def private_result_cache(tmp_path_factory: pytest.TempPathFactory, monkeypatch: pytest.MonkeyPatch) -> Path:
+    """A fresh result cache for every test (``reportgen run`` caches by default): never the user's own."""
+    folder = tmp_path_factory.mktemp("cache")
+    monkeypatch.setenv("REPORTGEN_CACHE", str(folder))
+    return folder
+
+
 @pytest.fixture
 def small_manifest() -> str:
     """The text of the small manifest (two walks and a noise)."""

@@ -12,6 +12,7 @@ import errno
 import json
 import os
 import shutil
+import sys
 import zipfile
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -290,6 +291,73 @@ def _(p: Project) -> tuple[list[str], str]:
     return p.run(), f"{p.where('path: sim.csv')}5: error[data-empty]: datasets.sim.path: sim.csv has a header"
 
 
+@case("data-format")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.dat")
+    p.write()
+    p.data.rename(p.data.with_suffix(".dat"))
+    return p.run(), f"{p.where('path: sim.dat')}5: error[data-format]: datasets.sim.path: cannot tell the format"
+
+
+@case("needs-package")
+def _(p: Project) -> tuple[list[str], str]:
+    import importlib
+
+    p.edit("path: sim.csv", "path: sim.parquet")
+    p.write()
+    p.data.rename(p.data.with_suffix(".parquet"))
+    original = importlib.import_module
+
+    def without_pyarrow(name: str, package: str | None = None) -> object:
+        if name.startswith("pyarrow"):
+            raise ImportError(name)
+        return original(name, package)
+
+    p.monkeypatch.setattr(importlib, "import_module", without_pyarrow)
+    return p.run(), f"{p.where('path: sim.parquet')}5: error[needs-package]: datasets.sim.path: reading sim.parquet"
+
+
+def _workbook(p: Project) -> None:
+    import openpyxl
+
+    book = openpyxl.Workbook()
+    sheet = book.active
+    sheet.title = "Data"
+    for row in p.data_text.splitlines():  # type: ignore[union-attr]
+        sheet.append(row.split(","))
+    book.save(p.root / "project" / "sim.xlsx")
+
+
+@case("sql-query")
+def _(p: Project) -> tuple[list[str], str]:
+    import sqlite3
+
+    p.write()
+    connection = sqlite3.connect(p.root / "project" / "sim.sqlite")
+    connection.execute("CREATE TABLE sim (month TEXT, walk_a REAL, walk_b REAL, noise REAL)")
+    connection.commit()
+    connection.close()
+    p.edit("path: sim.csv", 'path: sim.sqlite\n    query: "DROP TABLE sim"')
+    p.write()
+    return p.run(), f"{p.where('DROP TABLE')}5: error[sql-query]: datasets.sim.query: the query must be one SELECT"
+
+
+@case("sheet-missing")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.xlsx\n    sheet: Daten")
+    p.write()
+    _workbook(p)
+    return p.run(), f"{p.where('sheet: Daten')}5: error[sheet-missing]: datasets.sim.sheet: sim.xlsx has no sheet"
+
+
+@case("cell-range")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("path: sim.csv", "path: sim.xlsx\n    range: A1-D9")
+    p.write()
+    _workbook(p)
+    return p.run(), f"{p.where('range: A1-D9')}5: error[cell-range]: datasets.sim.range: cannot read the cell range"
+
+
 @case("index-missing")
 def _(p: Project) -> tuple[list[str], str]:
     p.edit("index: month", "index: period")
@@ -357,6 +425,13 @@ def _(p: Project) -> tuple[list[str], str]:
     p.data_text = _csv([f"{2000 + i},{i},{i},1" for i in range(40)])
     p.write()
     return p.run(), f"{p.where('path: sim.csv')}5: error[frequency-mismatch]"
+
+
+@case("conversion")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("    index: month", "    index: month\n    convert: {to: weekly, how: mean}")
+    p.write()
+    return p.run(), f"{p.where('convert:')}5: error[conversion]: datasets.sim.convert: cannot convert monthly data"
 
 
 @case("column-missing")
@@ -548,6 +623,12 @@ def _(p: Project) -> tuple[list[str], str]:
                                            "No space left on device"
 
 
+@case("init-target")
+def _(p: Project) -> tuple[list[str], str]:
+    p.write()
+    return ["init", str(p.root / "project")], f"{p.root / 'project'}: error[init-target]"
+
+
 @case("page-target")
 def _(p: Project) -> tuple[list[str], str]:
     p.write()
@@ -666,6 +747,55 @@ def _(p: Project) -> tuple[list[str], str]:
     with zipfile.ZipFile(target, "w") as archive:
         archive.writestr("readme.txt", "not a bundle")
     return ["verify", str(target)], f"{target}: error[not-a-bundle]"
+
+
+# ---------------------------------------------------------------- running on a cluster
+
+
+@case("dask-missing")
+def _(p: Project) -> tuple[list[str], str]:
+    p.manifest_text += "settings: {executor: dask}\n"
+    p.write()
+    p.monkeypatch.setitem(sys.modules, "distributed", None)  # import distributed fails as if not installed
+    return p.run(), (f"{p.where('executor: dask')}12: error[dask-missing]: settings.executor: running on a Dask "
+                     "cluster needs the 'distributed' package, which is not installed")
+
+
+@case("cluster-unreachable")
+def _(p: Project) -> tuple[list[str], str]:
+    from reportgen import executor
+
+    p.write()
+    p.monkeypatch.setattr(executor, "CLUSTER_CONNECT_TIMEOUT", 0.5)
+    return p.run("--cluster", "tcp://127.0.0.1:9"), \
+        "error[cluster-unreachable]: cannot reach the Dask scheduler at tcp://127.0.0.1:9: Timed out trying to connect"
+
+
+@case("cluster-mismatch")
+def _(p: Project) -> tuple[list[str], str]:
+    from reportgen import executor
+
+    here = executor.local_versions()
+
+    class Client:  # a scheduler whose one worker has another numpy
+        def __init__(self, address: str, timeout: float) -> None:
+            self.address = address
+
+        def nthreads(self) -> dict[str, int]:
+            return {"tcp://10.0.0.2:4000": 1}
+
+        def run(self, function: object, on_error: str) -> dict[str, dict[str, str]]:
+            return {"tcp://10.0.0.2:4000": {**here, "numpy": "1.0.0"}}
+
+        def close(self) -> None:
+            return None
+
+    p.write()
+    p.monkeypatch.setitem(sys.modules, "distributed", type(sys)("distributed"))
+    p.monkeypatch.setattr(sys.modules["distributed"], "Client", Client, raising=False)
+    return p.run("--cluster", "tcp://10.0.0.1:8786"), (
+        "error[cluster-mismatch]: the Dask cluster at tcp://10.0.0.1:8786 cannot give this machine's results: worker "
+        f"tcp://10.0.0.2:4000 has numpy 1.0.0 (here {here['numpy']})")
 
 
 #: Raised only by the statistics functions called directly (from a notebook), never by a run.

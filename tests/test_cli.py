@@ -86,7 +86,7 @@ def test_unknown_format_is_a_usage_error(small_project: Callable[..., Path], tmp
     status, _, stderr = _run(["run", str(small_project()), "--out", str(tmp_path / "o"), "--format", "docx"],
                              capsys)
     assert status == 2
-    assert "unknown format docx; choose from html, pdf, json (comma-separated)" in stderr
+    assert "unknown format docx; choose from html, pdf, tables, json (comma-separated)" in stderr
 
 
 def test_missing_arguments_are_usage_errors(capsys: pytest.CaptureFixture[str]) -> None:

@@ -40,6 +40,13 @@ ENTRY_TEMPLATE = "dossier.html.j2"
 #: Prefix under which a user template reaches the packaged version of a template it replaces.
 DEFAULT_PREFIX = "default/"
 
+#: A chart draws a line of more points than this as its envelope: the lowest and highest value
+#: of each of at most :data:`DISPLAY_COLUMNS` groups of consecutive periods (display only; the
+#: document keeps every value). The dossier says so under such a chart.
+DISPLAY_POINTS = 5000
+#: Groups of an envelope (about one per pixel column of a chart on a wide screen).
+DISPLAY_COLUMNS = 1000
+
 
 def packaged_templates_dir() -> Path:
     """The folder of templates shipped with reportgen.

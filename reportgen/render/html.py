@@ -28,7 +28,14 @@ from reportgen.errors import (
     TemplateSyntaxError,
     TemplateUnsafeError,
 )
-from reportgen.render.environment import ENTRY_TEMPLATE, TemplateLoadRefusedError, build_environment, unique_ids
+from reportgen.render.environment import (
+    DISPLAY_COLUMNS,
+    DISPLAY_POINTS,
+    ENTRY_TEMPLATE,
+    TemplateLoadRefusedError,
+    build_environment,
+    unique_ids,
+)
 
 #: Fixed anchors of the dossier's parts; series and regressions get ``series-…``/``regression-…``.
 SECTION_IDS: Mapping[str, str] = {
@@ -47,6 +54,13 @@ SECTION_IDS: Mapping[str, str] = {
 FIT_ROWS: tuple[tuple[str, ...], ...] = (("levels", "differences"), ("long_run", "error_correction"))
 #: Fits of a regression in the order they are shown.
 FIT_KEYS: tuple[str, ...] = tuple(key for row in FIT_ROWS for key in row)
+
+#: Rows of one summary table: a longer list is split into tables of this many rows, because
+#: WeasyPrint lays out a table that runs over many pages in time that grows faster than its pages.
+SUMMARY_ROWS = 50
+#: The tests that vote on a level's stationarity, in the order the table of decisive tests shows them
+#: (the decision rule of the methods appendix); other tests are in the full battery only.
+KEY_TESTS: tuple[str, ...] = ("ADF", "PP", "DF-GLS", "KPSS")
 
 #: Rows and columns of a robustness grid come in these orders; values not listed follow, in the
 #: order the document first gives them.
@@ -270,6 +284,7 @@ def battery_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
         "has_bandwidth": has_bandwidth,
         "has_breaks": has_breaks,
         "auxiliary_count": len(every) - len(tests),
+        "test_count": len(tests),
         "significance": next((test["significance"] for test in tests if test["significance"] is not None), None),
     }
 
@@ -316,6 +331,99 @@ def grid_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
     }
 
 
+def _decisive_levels(order: Any, levels: Sequence[Any]) -> list[Any]:
+    """The differencing levels whose tests decide an order, by the top-down rule (see the methods).
+
+    Order ``d`` >= 1: level ``d - 1`` (the highest that is not stationary) and level ``d``; order
+    0: level 0; no order: the highest level tested (which is not stationary).
+    """
+    if isinstance(order, int) and not isinstance(order, bool):
+        wanted = [order - 1, order] if order > 0 else [0]
+        return [level for level in wanted if level in levels]
+    numbers = [level for level in levels if isinstance(level, int)]
+    return [max(numbers)] if numbers else []
+
+
+def key_tests_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
+    """The tests at the levels that decide the order, as rows (level and terms) by columns (tests).
+
+    Only the voting tests (:data:`KEY_TESTS`) the battery shows (no auxiliary run) at the decisive
+    levels; a test a row does not have is ``None`` in its cell. ``nulls`` groups the columns by
+    null hypothesis. ``chosen`` marks the row of the terms chosen at that level (the
+    other is the second vote with a constant and trend).
+    """
+    tests = [test for test in (_complete(test, _TEST_FIELDS) for test in _mappings(series.get("tests")))
+             if test["auxiliary"] is not True]
+    if not tests:
+        return None
+    levels = list(dict.fromkeys(_as_level(test["level"]) for test in tests))
+    decisive = _decisive_levels(series.get("order"), levels)
+    chosen = series.get("deterministic") if isinstance(series.get("deterministic"), Mapping) else {}
+    chosen_by_level = {_as_level(key): value for key, value in chosen.items()}
+    shown = [test for test in tests if _as_level(test["level"]) in decisive]
+    voting = [test for test in shown if test["test"] in KEY_TESTS]
+    shown = voting or shown  # a battery without the voting tests shows what it has
+    columns = _ordered((test["test"] for test in shown), KEY_TESTS)
+    nulls: dict[str, list[str]] = {}
+    for column in columns:
+        null = next((str(test["null_hypothesis"]) for test in shown if test["test"] == column), "")
+        nulls.setdefault(null, []).append(column)
+    rows: list[dict[str, Any]] = []
+    for level in decisive:
+        at_level = [test for test in shown if _as_level(test["level"]) == level]
+        for terms in dict.fromkeys(test["deterministic"] for test in at_level):
+            cells: dict[str, Any] = {}
+            for test in at_level:
+                if test["deterministic"] == terms:
+                    cells.setdefault(str(test["test"]), test)
+            rows.append({"level": level, "deterministic": terms, "chosen": chosen_by_level.get(level) == terms,
+                         "cells": [cells.get(column) for column in columns]})
+    return {
+        "levels": decisive,
+        "columns": [{"test": column} for column in columns],
+        "nulls": [{"null_hypothesis": null, "tests": names} for null, names in nulls.items()],
+        "rows": rows,
+        "significance": next((test["significance"] for test in shown if test["significance"] is not None), None),
+        "test_count": len(tests),
+    }
+
+
+def decision_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
+    """The order restated by the top-down rule: the highest level not stationary and the level above it.
+
+    ``None`` without an order (the document's ``reason`` says why).
+    """
+    order = series.get("order")
+    if not isinstance(order, int) or isinstance(order, bool):
+        return None
+    return {"order": order, "stationary_level": order, "not_stationary_level": order - 1 if order > 0 else None}
+
+
+def display_view(count: int) -> dict[str, Any]:
+    """Whether a chart of ``count`` points draws an envelope (see :mod:`reportgen.render.plots`)."""
+    return {"count": count, "downsampled": count > DISPLAY_POINTS, "groups": DISPLAY_COLUMNS}
+
+
+def _series_count(series: Mapping[str, Any]) -> int:
+    data = series.get("data")
+    values = data.get("values") if isinstance(data, Mapping) else None
+    return len(values) if isinstance(values, (list, tuple)) else 0
+
+
+def _residual_count(regression: Mapping[str, Any]) -> int:
+    counts = [len(fit["residuals"]) for fit in (regression.get(key) for key in FIT_KEYS)
+              if isinstance(fit, Mapping) and isinstance(fit.get("residuals"), (list, tuple))]
+    return max(counts, default=0)
+
+
+def chunks(names: Iterable[str], size: int = SUMMARY_ROWS) -> list[list[str]]:
+    """``names`` in consecutive groups of ``size`` (one group when there are at most ``size + size // 5``)."""
+    listed = list(names)
+    if len(listed) <= size + size // 5:
+        return [listed]
+    return [listed[start:start + size] for start in range(0, len(listed), size)]
+
+
 def fan_view(series: Mapping[str, Any]) -> dict[str, Any] | None:
     """The facts of a series' fan chart shown under the chart, or ``None`` without one."""
     fan = series.get("fan_chart")
@@ -328,8 +436,11 @@ def series_view(series: Mapping[str, Any]) -> dict[str, Any]:
     """Everything the series partial shows beyond the document's plain fields."""
     return {
         "tests": battery_view(series),
+        "key": key_tests_view(series),
+        "decision": decision_view(series),
         "grid": grid_view(series),
         "fan": fan_view(series),
+        "display": display_view(_series_count(series)),
         "fragile": series.get("fragile") is True,
         "fragile_reason": series.get("fragile_reason") or None,
     }
@@ -422,6 +533,7 @@ def regression_view(regression: Mapping[str, Any]) -> dict[str, Any]:
         "engle_granger": engle_granger_view(regression),
         "johansen": johansen_view(regression),
         "bounds": bounds_view(regression),
+        "display": display_view(_residual_count(regression)),
         "fragile": regression.get("fragile") is True,
         "fragile_reason": regression.get("fragile_reason") or None,
     }
@@ -437,7 +549,8 @@ def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
     ``fit_panels[name]``: the fits of a regression in display order.
     ``series_views[name]``: :func:`series_view` (battery table, robustness grid, fan-chart facts, fragility).
     ``regression_views[name]``: :func:`regression_view` (fit rows, Engle-Granger, Johansen, bounds test,
-    fragility). ``css``: the stylesheet.
+    fragility). ``series_chunks``, ``regression_chunks``: the names in groups of at most
+    :data:`SUMMARY_ROWS`, one summary table each. ``css``: the stylesheet.
     """
     series: Mapping[str, Any] = document.get("series") or {}
     regressions: Mapping[str, Any] = document.get("regressions") or {}
@@ -454,6 +567,8 @@ def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
         "fit_panels": {name: _fit_panels(body) for name, body in regressions.items()},
         "series_views": {name: series_view(body) for name, body in series.items()},
         "regression_views": {name: regression_view(body) for name, body in regressions.items()},
+        "series_chunks": chunks(series),
+        "regression_chunks": chunks(regressions),
         "css": _stylesheet(environment),
     }
 

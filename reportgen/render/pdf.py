@@ -9,11 +9,13 @@ folder or the template folders, and ``data:`` URLs; anything else stops the rend
 
 from __future__ import annotations
 
+import base64
 import contextlib
 import datetime
 import logging
 import mimetypes
 import os
+import re
 from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -107,12 +109,14 @@ def pdf_timestamp(created: str) -> datetime.datetime:
 
 @dataclass(frozen=True, slots=True)
 class BuiltPdf:
-    """A laid-out dossier: the PDF bytes, its page count and title, and WeasyPrint's warnings."""
+    """A laid-out dossier: the PDF bytes, its page count and title, WeasyPrint's warnings, and whether
+    the folded parts of the series sections are in the PDF (else in the attached HTML)."""
 
     data: bytes
     pages: int
     title: str | None = None
     warnings: tuple[str, ...] = ()
+    details: bool = True
 
 
 class _Collect(logging.Handler):
@@ -148,8 +152,123 @@ def _fixed_clock(moment: datetime.datetime) -> Iterator[_Collect]:
             os.environ["SOURCE_DATE_EPOCH"] = previous
 
 
+#: An inline chart as :func:`reportgen.render.plots.render_plots` writes it (matplotlib escapes ``<`` in
+#: text, so a chart holds no ``</svg>`` but its own end).
+_INLINE_CHART = re.compile(r'<svg class="chart" [^>]*>.*?</svg>', re.DOTALL)
+_ARIA_LABEL = re.compile(r'\saria-label="([^"]*)"')
+
+
+def _chart_image(match: re.Match[str]) -> str:
+    svg = match.group(0)
+    label = _ARIA_LABEL.search(svg[: svg.index(">")])
+    alt = label.group(1) if label else ""
+    data = base64.b64encode(svg.encode("utf-8")).decode("ascii")
+    return f'<img class="chart" alt="{alt}" src="data:image/svg+xml;base64,{data}">'
+
+
+#: A dossier of more series than this is laid out without the folded part of each series section
+#: (``<details class="more series-more">``: the fan chart, every test, the robustness grid, the
+#: decision trail and the notes), which the PDF then carries as the attached ``dossier.html``; laying
+#: out those records takes WeasyPrint about a second a series, so a 1,000-series dossier would take
+#: a quarter of an hour. ``details=True`` or ``False`` in :func:`build_pdf` decides either way.
+PDF_DETAIL_LIMIT = 50
+#: Name of the attached HTML dossier when the PDF leaves the folded parts out.
+ATTACHED_HTML = "dossier.html"
+_SERIES_SECTION = re.compile(r'<article class="item series[ "]')
+_FOLDED = re.compile(r'<details class="more series-more">.*?</details>', re.DOTALL)
+_FOLDED_ELSEWHERE = (
+    '<p class="more-elsewhere">The fan chart, every test run, the robustness grid, the choice of deterministic '
+    f"terms, the decision trail and the notes of this series are in {ATTACHED_HTML}, attached to this PDF, and "
+    "in results.json.</p>")
+
+
+def series_sections(html: str) -> int:
+    """How many series sections the dossier page has."""
+    return len(_SERIES_SECTION.findall(html))
+
+
+def paper_html(html: str, *, details: bool = True) -> str:
+    """The dossier page as WeasyPrint lays it out.
+
+    Each inline chart becomes an SVG image: the same drawing, but parsed by the XML parser
+    instead of the HTML5 one and not matched against the page's stylesheet element by element,
+    which makes a chart a fraction of its inline cost (``alt`` keeps its description; a
+    ``data:`` URL is fetched by :class:`LocalFileFetcher` like any other resource). Without
+    ``details``, the folded part of each series section is replaced by a sentence that says
+    where it is.
+    """
+    if not details:
+        html = _FOLDED.sub(_FOLDED_ELSEWHERE, html)
+    return _INLINE_CHART.sub(_chart_image, html)
+
+
+class _Unsplit(str):
+    """Text that iterates as one piece (see :func:`_svg_text_in_one_piece`)."""
+
+    __slots__ = ()
+
+    def __iter__(self) -> Iterator[str]:
+        yield str(self)
+
+
+#: Attributes that place an SVG text's glyphs one by one; a text with any of them is laid out letter by letter.
+_GLYPH_PLACEMENT = ("dx", "dy", "rotate", "textLength", "letter-spacing", "lengthAdjust")
+
+
+@contextlib.contextmanager
+def _svg_text_in_one_piece() -> Iterator[None]:
+    """Lay out each plain SVG ``<text>`` of the charts as one run instead of one letter at a time.
+
+    WeasyPrint (up to at least 70) draws SVG text code point by code point, so that each glyph
+    could take its own ``x``, ``y``, ``dx``, ``dy`` or ``rotate``; one Pango layout per letter
+    makes the text of a chart the larger part of its cost, and separates combining marks and
+    ligatures (WeasyPrint issue #2249, whose suggested fix is the same: shape the whole text when
+    nothing places glyphs one by one). For a text with a single ``x`` and ``y`` and none of
+    :data:`_GLYPH_PLACEMENT`, this hands WeasyPrint's own text function the string as a single
+    "letter", so it is shaped, measured and drawn once, at the same place. Anything else, and any
+    WeasyPrint whose SVG text function is not the one this was written for, is left as it is.
+    """
+    try:
+        from weasyprint import svg as weasy_svg  # type: ignore[import-untyped]
+    except ImportError:  # pragma: no cover - an unusual WeasyPrint layout: nothing to adjust
+        yield
+        return
+    tags = getattr(weasy_svg, "TAGS", None)
+    original = tags.get("text") if isinstance(tags, dict) else None
+    if (tags is None or original is None or getattr(original, "__module__", None) != "weasyprint.svg.text"
+            or getattr(original, "__name__", None) != "text" or getattr(weasy_svg, "text", None) is not original):
+        yield
+        return
+
+    def text(svg: Any, node: Any, font_size: float) -> Any:
+        element = getattr(node, "_etree_node", None)
+        content = getattr(element, "text", None)
+        attributes = getattr(node, "attrib", {})
+        if (getattr(node, "tag", None) in ("text", "tspan") and isinstance(content, str) and len(content) > 1
+                and not any(key in attributes for key in _GLYPH_PLACEMENT)
+                and all(len(str(attributes.get(key, "0")).replace(",", " ").split()) == 1 for key in ("x", "y"))):
+            element.text = _Unsplit(content)
+            try:
+                return original(svg, node, font_size)
+            finally:
+                element.text = content
+        return original(svg, node, font_size)
+
+    # WeasyPrint recognises text elements by comparing their function with its own name ``text``.
+    replaced = [key for key, function in tags.items() if function is original]
+    for key in replaced:
+        tags[key] = text
+    weasy_svg.text = text
+    try:
+        yield
+    finally:
+        for key in replaced:
+            tags[key] = original
+        weasy_svg.text = original
+
+
 def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[Path] = (),
-              template_dirs: Sequence[Path] = ()) -> BuiltPdf:
+              template_dirs: Sequence[Path] = (), details: bool | None = None) -> BuiltPdf:
     """Lay out ``html`` with WeasyPrint and return the PDF bytes (see :func:`render_pdf`)."""
     from weasyprint import HTML, Attachment  # type: ignore[import-untyped]
     from weasyprint.urls import FatalURLFetchingError
@@ -165,10 +284,16 @@ def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[
         files.append(Attachment(filename=str(path), name=path.name, description=f"{path.name}, attached by reportgen",
                                 created=moment, modified=moment, url_fetcher=fetcher,
                                 relationship="Data" if path.suffix == ".json" else "Source"))
+    if details is None:
+        details = series_sections(html) <= PDF_DETAIL_LIMIT
+    if not details:
+        files.append(Attachment(string=html, name=ATTACHED_HTML, description=f"{ATTACHED_HTML}: the dossier with "
+                                "every record of every series, attached by reportgen", created=moment,
+                                modified=moment, url_fetcher=fetcher, relationship="Supplement"))
     try:
-        with _fixed_clock(moment) as log:
-            document = HTML(string=html, base_url=str(Path(base_dir).resolve()) + os.sep, url_fetcher=fetcher,
-                            media_type="print").render()
+        with _fixed_clock(moment) as log, _svg_text_in_one_piece():
+            document = HTML(string=paper_html(html, details=details), base_url=str(Path(base_dir).resolve()) + os.sep,
+                            url_fetcher=fetcher, media_type="print").render()
             document.metadata.created = stamp
             document.metadata.modified = stamp
             data = document.write_pdf(attachments=files, pdf_identifier=True)
@@ -184,11 +309,11 @@ def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[
     if fetcher.refused:  # refused inside an SVG image, where WeasyPrint only logs the failure
         raise fetcher.refused[0]
     return BuiltPdf(data=data, pages=len(document.pages), title=document.metadata.title,
-                    warnings=tuple(log.messages))
+                    warnings=tuple(log.messages), details=details)
 
 
 def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attachments: Sequence[Path] = (),
-               template_dirs: Sequence[Path] = ()) -> None:
+               template_dirs: Sequence[Path] = (), details: bool | None = None) -> BuiltPdf:
     """Write the dossier PDF to ``out_path`` (atomically: a temporary file, then a rename).
 
     Parameters
@@ -206,13 +331,24 @@ def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attac
         Files embedded in the PDF (the manifest and results.json), under their own names.
     template_dirs
         The user's template folders (``--templates``): files inside them may be loaded too.
+    details
+        Whether the folded part of every series section (fan chart, every test, robustness grid,
+        decision trail, notes) is laid out in the PDF, in smaller type; without it the PDF carries
+        the HTML page as the attachment ``dossier.html``. ``None`` (the default): for a dossier of
+        at most :data:`PDF_DETAIL_LIMIT` series.
+
+    Returns
+    -------
+    BuiltPdf
+        What was written, with its page count.
 
     Raises
     ------
     ResourceRefusedError
         The HTML refers to a network resource or to a file outside the allowed folders.
     """
-    built = build_pdf(html, base_dir=base_dir, created=created, attachments=attachments, template_dirs=template_dirs)
+    built = build_pdf(html, base_dir=base_dir, created=created, attachments=attachments, template_dirs=template_dirs,
+                      details=details)
     out_path = Path(out_path)
     # A plain open() so the file gets the usual permissions (umask), unlike tempfile's 0600.
     temporary = out_path.with_name(f".{out_path.name}.{os.getpid()}.partial")
@@ -223,3 +359,4 @@ def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attac
     except BaseException:
         temporary.unlink(missing_ok=True)
         raise
+    return built

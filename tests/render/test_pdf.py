@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import base64
 import re
 import zlib
 from pathlib import Path
@@ -11,12 +12,15 @@ import pytest
 
 from reportgen.errors import ResourceRefusedError, ResourceUnreadableError
 from reportgen.render.pdf import (
+    PDF_DETAIL_LIMIT,
     BuiltPdf,
     LocalFileFetcher,
     build_pdf,
     packaged_templates_dir,
+    paper_html,
     pdf_timestamp,
     render_pdf,
+    series_sections,
 )
 
 from .conftest import CREATED
@@ -170,3 +174,44 @@ def test_local_image_next_to_the_manifest_is_used(workspace: Path) -> None:
     built = build_pdf(TINY.format(extra='<img src="logo.svg" alt="logo">'), base_dir=workspace, created=CREATED)
     assert built.pages == 1
     assert [message for message in built.warnings if "HarfBuzz" not in message] == []
+
+
+# -- the page WeasyPrint lays out ----------------------------------------------------------------
+
+def test_charts_are_laid_out_as_svg_images(small_html: str) -> None:
+    paper = paper_html(small_html)
+    assert '<svg class="chart"' in small_html
+    assert '<svg class="chart"' not in paper
+    images = re.findall(r'<img class="chart" alt="([^"]*)" src="data:image/svg\+xml;base64,([^"]+)">', paper)
+    assert len(images) == small_html.count('<svg class="chart"')
+    alt, data = images[0]
+    assert alt.startswith("Chart of series boxes")
+    assert base64.b64decode(data).decode("utf-8").startswith('<svg class="chart" role="img"')
+
+
+def test_folded_parts_are_laid_out_or_attached(small_html: str, workspace: Path) -> None:
+    assert series_sections(small_html) == 1 <= PDF_DETAIL_LIMIT
+    full = build_pdf(small_html, base_dir=workspace, created=CREATED)
+    short = build_pdf(small_html, base_dir=workspace, created=CREATED, details=False)
+    assert full.details
+    assert not short.details
+    assert short.pages < full.pages
+    assert b"dossier.html" in inflated(short.data)
+    assert b"dossier.html" not in inflated(full.data)
+    paper = paper_html(small_html, details=False)
+    assert '<details class="more series-more">' not in paper
+    assert "attached to this PDF" in paper
+    assert paper.count('class="more-elsewhere"') == 1
+
+
+def test_svg_text_handler_is_restored(workspace: Path) -> None:
+    from weasyprint import svg as weasy_svg
+
+    before = dict(weasy_svg.TAGS)
+    text = weasy_svg.text
+    svg = ('<svg xmlns="http://www.w3.org/2000/svg" width="200" height="40"><text x="5" y="20">Whole</text>'
+           '<text x="5 15 25" y="35">per glyph</text><text x="5" y="10" dx="1 2">shifted</text></svg>')
+    built = build_pdf(TINY.format(extra=svg), base_dir=workspace, created=CREATED)
+    assert [message for message in built.warnings if "HarfBuzz" not in message] == []
+    assert before == weasy_svg.TAGS
+    assert weasy_svg.text is text

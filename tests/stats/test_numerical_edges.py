@@ -12,7 +12,6 @@ from __future__ import annotations
 import dataclasses
 import json
 import math
-import time
 import warnings
 from collections.abc import Callable
 from pathlib import Path
@@ -624,12 +623,12 @@ def test_a_100000_point_series_and_regression_finish_with_finite_statistics() ->
     # The full procedure the runner uses (grid and Zivot-Andrews included) on 100,000 daily points.
     # Before the lag searches shared one factorisation and Zivot-Andrews searched by an update,
     # this took well over twenty minutes; it now takes about 10 s for the series and 5 s for the
-    # regression on two cores. The bound below only catches a return to quadratic cost.
+    # regression on two cores. No time is asserted here (speed lives in bench/); a return to
+    # quadratic cost would show as a suite that does not finish.
     length = 100_000
     rng = np.random.default_rng([STREAM, 100])
     x = 100.0 + rng.standard_normal(length).cumsum()
     index = pd.period_range("1800-01-01", periods=length, freq="D")
-    started = time.perf_counter()
     verdict = integration_order("long", pd.Series(x, index=index), StatsSettings())
     assert verdict.order == 1
     assert {result.test for result in verdict.tests} == {"ADF", "PP", "DF-GLS", "KPSS", "Zivot-Andrews"}
@@ -641,7 +640,6 @@ def test_a_100000_point_series_and_regression_finish_with_finite_statistics() ->
     assessment = assess_regression("long", "y ~ x", "y", ["x"], data, {"y": 1, "x": 1}, StatsSettings())
     assert assessment.verdict == "cointegrated"
     assert_finite(assessment)
-    assert time.perf_counter() - started < 120.0
 
 
 # --- warnings ------------------------------------------------------------------------------------
