@@ -21,7 +21,7 @@ $(VENV)/.installed-test: pyproject.toml $(VENV)/.installed
 
 demo: $(VENV)/.installed
 	$(BIN)/reportgen run manifests/demo.yaml --out $(DEMO_OUT)
-	@echo "The demo dossier is in $(abspath $(DEMO_OUT)): dossier.html, dossier.pdf, results.json"
+	@echo "The demo dossier is in $(abspath $(DEMO_OUT)): dossier.html, dossier.pdf, results.json, tables/"
 
 test: $(VENV)/.installed-test
 	$(BIN)/python -m ruff check reportgen tests manifests tools
