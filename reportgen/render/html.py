@@ -3,8 +3,15 @@
 :func:`render_html` builds one context from the results document (anchors, charts, the fits of
 each regression in display order, and *views*: the document's tables arranged for display, with
 every optional field present) and hands it to the templates, which only display it. Arranging is
-grouping, ordering, de-duplicating footnotes and comparing a grid cell with the reported order;
+grouping, ordering, de-duplicating footnotes, comparing a grid cell with the reported order and
+picking the tests of the levels that decide an order (by the rule the methods appendix states);
 no statistic is computed here.
+
+The page is laid out for hundreds of series: the summary comes first (every regression's verdict,
+every series' order, terms and robustness, in tables of at most :data:`SUMMARY_ROWS` rows), then
+the index, then one compact section per series (the order in a sentence, the decisive tests, the
+chart) whose full record (fan chart, every test, robustness grid, deterministic terms, decision
+trail, notes) is folded in a ``<details>`` element.
 """
 
 from __future__ import annotations

@@ -5,6 +5,15 @@ and modification dates are ``created`` (not the clock), its file identifier is d
 content, and the attachments carry ``created`` as their dates, so two runs give identical bytes.
 Nothing is fetched from the network: the URL fetcher serves ``file:`` URLs inside the manifest's
 folder or the template folders, and ``data:`` URLs; anything else stops the rendering.
+
+Time: WeasyPrint's cost grows with the boxes it lays out and paints, about linearly in the
+number of sections. Three things keep a large dossier affordable (see :func:`paper_html` and
+:func:`_svg_text_in_one_piece`): charts are handed over as SVG images rather than inline markup,
+chart texts are shaped in one piece rather than letter by letter, and a dossier of more than
+:data:`PDF_DETAIL_LIMIT` series leaves the folded records of its series (every test, grid, trail,
+notes, fan chart) to the HTML page attached to the PDF. The stylesheet does its part: fixed table
+layouts, page numbers in the index without leaders, long summary tables split (see style.css and
+:data:`reportgen.render.html.SUMMARY_ROWS`).
 """
 
 from __future__ import annotations
