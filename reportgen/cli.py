@@ -1,7 +1,7 @@
 """The command line: parse arguments, call the runner or the audit, print, map outcomes to exit codes.
 
 Commands:
-  reportgen run MANIFEST --out DIR [--format html,pdf|json] [--bundle] [--force] [--fail-on CONDITION]
+  reportgen run MANIFEST --out DIR [--format html,pdf|json] [--appendix] [--bundle] [--force] [--fail-on CONDITION]
                 [--jobs N | --cluster ADDRESS] [--cache DIR | --no-cache] [--quiet]
   reportgen verify DIR_OR_BUNDLE [--recompute] [--tolerance 1e-9]
   reportgen diff OLD NEW [--html FILE] [--tolerance 1e-6] [--exit-code]
@@ -112,7 +112,11 @@ def build_parser() -> argparse.ArgumentParser:
                      help="comma-separated outputs besides results.json: html, pdf, tables (CSV and LaTeX files "
                           "under DIR/tables/; default all three); 'json' for results.json alone")
     run.add_argument("--templates", type=Path, action="append", default=[],
-                     help="a folder of templates searched before the packaged ones (repeatable)")
+                     help="a folder of templates searched before the manifest's brand folder and the packaged "
+                          "templates (repeatable; searched in the order given)")
+    run.add_argument("--appendix", action="store_true",
+                     help="lay the HTML and PDF out as a referee's appendix: compact tables only, no charts and no "
+                          "folded details (results.json is the same as without it)")
     run.add_argument("--bundle", action="store_true",
                      help="also write DIR/bundle.zip: the manifest, a snapshot of every input, results.json, the "
                           "dossier, environment.lock and checksums.sha256")
@@ -207,8 +211,11 @@ def _crash_report(error: BaseException) -> Path:
     return Path(name)
 
 
-#: Options of ``run`` that choose where and how the statistics are computed, never what they compute.
-EXECUTION_OPTIONS: dict[str, bool] = {"--jobs": True, "--cluster": True, "--cache": True, "--no-cache": False}
+#: Options of ``run`` that choose where and how the statistics are computed, never what they compute,
+#: and ``--appendix``, which only lays the dossier out differently (the dossier page records its layout).
+#: The value says whether the option takes a value.
+EXECUTION_OPTIONS: dict[str, bool] = {"--jobs": True, "--cluster": True, "--cache": True, "--no-cache": False,
+                                      "--appendix": False}
 
 
 def recorded_command(arguments: Sequence[str]) -> list[str]:
@@ -254,7 +261,8 @@ def _run_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
     outcome = run(options.manifest, options.out, options.formats, template_dirs=options.templates,
                   command=["reportgen", *recorded_command(arguments)],
                   progress=progress_display(sys.stderr, quiet=options.quiet), bundle=options.bundle,
-                  force=options.force, jobs=options.jobs, cluster=options.cluster, cache=cache)
+                  force=options.force, jobs=options.jobs, cluster=options.cluster, cache=cache,
+                  layout="appendix" if options.appendix else "full")
     if not options.quiet:
         print(_summary(dict(outcome.document), outcome.out_dir, outcome.files))
     conditions = [condition for group in options.fail_on for condition in group]

@@ -708,11 +708,19 @@ class TemplatesMissingError(TemplateError):
 
 
 class TemplateFolderMissingError(TemplateError):
-    """A ``--templates`` folder that does not exist."""
+    """A ``--templates`` folder or a manifest's brand folder (``project.branding.templates``) that does not exist."""
 
     code = "template-folder-missing"
     template = "template folder {path} does not exist or is not a folder"
     fix = "check the --templates option"
+
+
+class LogoUnusableError(TemplateError):
+    """A brand logo (``project.branding.logo``) that cannot be read or is not a PNG, JPEG or plain SVG image."""
+
+    code = "logo-unusable"
+    template = "the logo {path} cannot be used: {problem}"
+    fix = "{remedy}"
 
 
 class TemplateSyntaxError(TemplateError):

@@ -9,6 +9,7 @@ reported together.
 
 from __future__ import annotations
 
+import datetime
 import difflib
 import re
 from collections.abc import Mapping
@@ -85,13 +86,42 @@ class _Model(BaseModel):
     model_config = ConfigDict(extra="forbid", strict=True, frozen=True)
 
 
+class BrandingSpec(_Model):
+    """A firm's look of the dossier: a template folder, the firm's name, its logo and its disclaimer.
+
+    ``templates`` and ``logo`` are paths relative to the manifest's folder; the folder is searched
+    after any ``--templates`` folder and before the packaged templates. ``disclaimer`` is added to
+    the standard cautions, never in their place.
+    """
+
+    templates: str | None = Field(default=None, min_length=1)
+    firm: str | None = Field(default=None, min_length=1)
+    logo: str | None = Field(default=None, min_length=1)
+    disclaimer: str | None = Field(default=None, min_length=1)
+
+
+class SignOffSpec(_Model):
+    """Who prepared and who reviewed the dossier, and when (ISO dates, ``2026-11-27``).
+
+    ``prepared_by`` defaults to the project's author on the cover; a review is recorded with both
+    its reviewer and its date, or not at all (the cover then says "not yet reviewed").
+    """
+
+    prepared_by: str | None = Field(default=None, min_length=1)
+    prepared_on: str | None = None
+    reviewed_by: str | None = Field(default=None, min_length=1)
+    reviewed_on: str | None = None
+
+
 class ProjectSpec(_Model):
-    """Cover details of the dossier."""
+    """Cover details of the dossier, its branding and its sign-off."""
 
     title: str = Field(min_length=1)
     client: str = ""
     author: str = ""
     reference: str = ""
+    branding: BrandingSpec | None = None
+    sign_off: SignOffSpec | None = None
 
 
 class ConvertSpec(_Model):
@@ -466,9 +496,56 @@ def _transform_steps(spec: SeriesSpec) -> tuple[Step, ...]:
     return tuple(steps)
 
 
+_ISO_DATE = re.compile(r"\d{4}-\d{2}-\d{2}")
+
+
+def _iso_date(text: str) -> datetime.date | None:
+    """``text`` as a calendar date if it is written ``YYYY-MM-DD`` and exists, else None."""
+    if not _ISO_DATE.fullmatch(text):
+        return None
+    try:
+        return datetime.date.fromisoformat(text)
+    except ValueError:
+        return None
+
+
+def _check_sign_off(spec: ManifestSpec, locate: Any) -> list[ManifestError]:
+    """Sign-off dates are ISO calendar dates; a review names its reviewer and its date, not after preparation."""
+    sign_off = spec.project.sign_off
+    if sign_off is None:
+        return []
+    problems: list[ManifestError] = []
+    dates: dict[str, datetime.date] = {}
+    for key in ("prepared_on", "reviewed_on"):
+        text = getattr(sign_off, key)
+        if text is None:
+            continue
+        date = _iso_date(text)
+        if date is None:
+            problems.append(InvalidValueError(
+                location=locate("project", "sign_off", key),
+                problem=f"{text!r} is not a date written as YYYY-MM-DD (year, month, day)",
+                remedy=f"write the date in ISO form, e.g. {key}: 2026-11-27"))
+        else:
+            dates[key] = date
+    if (sign_off.reviewed_by is None) != (sign_off.reviewed_on is None):
+        missing, given = ("reviewed_on", "reviewed_by") if sign_off.reviewed_on is None else ("reviewed_by",
+                                                                                             "reviewed_on")
+        problems.append(InvalidValueError(
+            location=locate("project", "sign_off", given),
+            problem=f"a review is recorded with its reviewer and its date; '{given}' is given without '{missing}'",
+            remedy=f"add {missing}, or remove {given} while the dossier is not yet reviewed"))
+    if "prepared_on" in dates and "reviewed_on" in dates and dates["reviewed_on"] < dates["prepared_on"]:
+        problems.append(InvalidValueError(
+            location=locate("project", "sign_off", "reviewed_on"),
+            problem=f"the review ({sign_off.reviewed_on}) is dated before the preparation ({sign_off.prepared_on})",
+            remedy="check both dates"))
+    return problems
+
+
 def _cross_check(spec: ManifestSpec, locate: Any) -> tuple[list[ManifestError], dict[str, Formula],
                                                             dict[str, tuple[Step, ...]]]:
-    problems: list[ManifestError] = []
+    problems: list[ManifestError] = _check_sign_off(spec, locate)
     transforms: dict[str, tuple[Step, ...]] = {}
     for name, dataset in spec.datasets.items():
         suffix = Path(dataset.path).suffix.lower()

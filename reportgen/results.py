@@ -38,8 +38,8 @@ CAUTIONS: tuple[str, ...] = (
 class InputRecord:
     """One input file: what it is, where it was read, and the SHA-256 of its bytes."""
 
-    role: str  # "manifest" or "data"
-    name: str  # dataset name, or "manifest"
+    role: str  # "manifest", "data" or "brand" (a brand template or logo, see reportgen.branding)
+    name: str  # dataset name, "manifest", or "brand:logo" / "brand:templates/PATH"
     path: str  # as resolved at run time (absolute)
     relative_path: str  # relative to the manifest's folder, as written in the manifest
     sha256: str

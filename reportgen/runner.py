@@ -23,12 +23,13 @@ import warnings
 from collections.abc import Callable, Iterator, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, TypeVar
+from typing import Any, Literal, TypeVar
 
 import numpy as np
 import pandas as pd
 
 from reportgen import __version__
+from reportgen.branding import BRAND_ROLE, brand_files, brand_folder, logo_data_url
 from reportgen.cache import ResultCache, content_key
 from reportgen.errors import (
     ConstantSeriesError,
@@ -82,6 +83,8 @@ CHECKSUMS_FILE = "checksums.sha256"
 TABLES_FOLDER = "tables"
 #: The archive bundle, written when asked (``--bundle``).
 BUNDLE_FILE = "bundle.zip"
+#: Layouts of the HTML and PDF dossier: every section in full, or a referee's appendix of compact tables.
+Layout = Literal["full", "appendix"]
 #: Settings that choose where the statistics run, not what they compute: not recorded in results.json.
 EXECUTION_SETTINGS = frozenset({"executor"})
 
@@ -409,6 +412,7 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = Non
     display = as_progress(progress)
     executor = executor if executor is not None else SerialExecutor()
     settings = _stats_settings(manifest)
+    brand = brand_files(manifest)  # before any data is read: a missing brand folder or logo stops the run early
     display.start("reading data")
     tables = load_tables(manifest)
     built = build_series(manifest, tables)
@@ -460,12 +464,14 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = Non
             notes=table.notes + ((outside,) if outside else ()), query=manifest.spec.datasets[name].query,
             query_sha256=None if manifest.spec.datasets[name].query is None
             else sha256_bytes(str(manifest.spec.datasets[name].query).encode()))
+    inputs += [InputRecord(role=BRAND_ROLE, name=item.name, path=str(item.path), relative_path=item.relative_path,
+                           sha256=sha256_bytes(item.data), bytes=len(item.data)) for item in brand]
     env = environment(command, manifest.base_dir)
     settings_record = manifest.spec.settings.model_dump(exclude=EXECUTION_SETTINGS)
     identifier = run_id(__version__, [record.sha256 for record in inputs], settings_record, env["packages"],
                         table_hashes=[record.table_sha256 for record in datasets.values()],
                         python=env["python"], platform_name=env["platform"], git=env["git"])
-    project = manifest.spec.project.model_dump()
+    project = manifest.spec.project.model_dump(exclude_none=True)  # branding and sign-off only when given
     return Results(tool_version=__version__, run_id=identifier, created=build_time(), project=project,
                    settings=settings_record, inputs=tuple(inputs), environment=env, datasets=datasets,
                    series=records, regressions=assessments,
@@ -702,8 +708,13 @@ def draw_charts(document: Mapping[str, Any], executor: Executor) -> dict[str, st
 
 def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[str], *, manifest: Manifest,
                   template_dirs: Sequence[Path] = (), progress: Progress = None, bundle: bool = False,
-                  force: bool = False, started: float | None = None, executor: Executor | None = None) -> RunOutcome:
+                  force: bool = False, started: float | None = None, executor: Executor | None = None,
+                  layout: Layout = "full") -> RunOutcome:
     """Write results.json, the asked-for renderings, the bundle and checksums.sha256, atomically.
+
+    ``template_dirs`` (``--templates``) are searched before the manifest's brand folder, which is
+    searched before the packaged templates. ``layout`` chooses the dossier's layout (``"full"``, or
+    ``"appendix"``: compact tables only); it changes the HTML and PDF, never results.json.
 
     Everything is written into a staging folder ``.NAME.partial-PID-XXXX`` beside ``out_dir`` (PID
     is this process) and swapped into place when complete; ``checksums.sha256`` is written last
@@ -731,11 +742,16 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
         if "html" in formats or "pdf" in formats:
             from reportgen.render.html import render_html
 
-            display.start("charts")
-            plots = draw_charts(document, executor if executor is not None else SerialExecutor())
-            display.finish("charts")
+            brand = brand_folder(manifest)
+            user_dirs = [*template_dirs, *((brand,) if brand is not None else ())]
+            plots: dict[str, str] = {}
+            if layout != "appendix":  # the appendix layout has no charts
+                display.start("charts")
+                plots = draw_charts(document, executor if executor is not None else SerialExecutor())
+                display.finish("charts")
             display.start("HTML")
-            html = render_html(document, plots, template_dirs)
+            html = render_html(document, plots, template_dirs, layout=layout, brand_folder=brand,
+                               logo_url=logo_data_url(manifest, document))
             display.finish("HTML")
             if "html" in formats:
                 (staging / "dossier.html").write_text(html, encoding="utf-8")
@@ -745,7 +761,7 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
 
                 display.start("PDF")
                 render_pdf(html, staging / "dossier.pdf", base_dir=manifest.base_dir, created=document["created"],
-                           attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=template_dirs)
+                           attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=user_dirs)
                 display.finish("PDF")
                 written.append("dossier.pdf")
         if "tables" in formats:
@@ -859,7 +875,7 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
         template_dirs: Sequence[Path] = (), command: Sequence[str] | None = None,
         progress: Progress = None, bundle: bool = False, force: bool = False, jobs: int | None = 1,
         cluster: str | None = None, executor: Executor | None = None,
-        cache: ResultCache | Path | str | None = None) -> RunOutcome:
+        cache: ResultCache | Path | str | None = None, layout: Layout = "full") -> RunOutcome:
     """Load, analyse and write a dossier; the one function the command line and notebooks call.
 
     ``bundle`` also writes ``bundle.zip`` (see :mod:`reportgen.bundle`); ``force`` replaces a
@@ -871,7 +887,8 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
     ``jobs`` and ``cluster`` (:func:`open_executor`; closed at the end): by default one after
     another in this process. ``cache`` (a :class:`~reportgen.cache.ResultCache` or its folder)
     reuses the verdicts and assessments of earlier runs; by default nothing is cached. Neither
-    changes a byte of the results.
+    changes a byte of the results. ``layout`` (``"full"`` or ``"appendix"``) chooses the layout of
+    the HTML and PDF dossier (see :func:`write_outputs`); results.json is the same for both.
     """
     started = time.time()
     display = as_progress(progress)
@@ -892,7 +909,8 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
         document = results_to_dict(results)
         document["run_id"] = document_run_id(document)
         outcome = write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
-                                progress=display, bundle=bundle, force=force, started=started, executor=chosen)
+                                progress=display, bundle=bundle, force=force, started=started, executor=chosen,
+                                layout=layout)
     finally:
         if executor is None:
             chosen.close()

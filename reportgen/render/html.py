@@ -122,7 +122,7 @@ _INLINE_IMAGE = re.compile(r"data:image/(png|jpeg);base64,[A-Za-z0-9+/=\s]*")
 _URL_FUNCTION = re.compile(r"url\(\s*([^)]*?)\s*\)", re.IGNORECASE)
 
 
-def _svg_problem(svg: str) -> str | None:
+def svg_problem(svg: str) -> str | None:
     """What makes ``svg`` unfit to inline in the page, or ``None`` for a plain drawing.
 
     The check is on the parsed tree, not on the text, so a label that *reads* ``<script>`` or
@@ -154,22 +154,26 @@ def _svg_problem(svg: str) -> str | None:
     return None
 
 
+_svg_problem = svg_problem  # the earlier private name
+
+
 def _chart_markup(key: str, svg: str) -> Markup:
     """An SVG from :func:`reportgen.render.plots.render_plots`, checked and marked safe to inline."""
     text = svg.strip()
-    problem = _svg_problem(text)
+    problem = svg_problem(text)
     if problem is not None:
         raise ValueError(f"chart {key!r} is not a plain inline SVG ({problem}); pass the output of render_plots")
     return Markup(text)  # checked above; drawn by our own plotting code, every label escaped by matplotlib
 
 
-def _stylesheet(environment: jinja2.Environment) -> Markup:
-    """``style.css`` from the template folders (a user folder may replace it), for a <style> element."""
+def _stylesheet(environment: jinja2.Environment, name: str = "style.css") -> Markup:
+    """A stylesheet from the template folders (a user folder may replace it), for a <style> element."""
     loader = environment.loader
     assert loader is not None
-    source, filename, _ = loader.get_source(environment, "style.css")
+    source, filename, _ = loader.get_source(environment, name)
     if re.search(r"</\s*style", source, re.IGNORECASE):
-        raise StylesheetUnsafeError(location=Location(path=filename or "style.css"))
+        message = None if name == "style.css" else f"{name} must not contain a closing </style> tag"
+        raise StylesheetUnsafeError(message, location=Location(path=filename or name))
     return Markup(source)  # a stylesheet from the template folder, not document text
 
 
@@ -546,8 +550,100 @@ def regression_view(regression: Mapping[str, Any]) -> dict[str, Any]:
     }
 
 
+def appendix_series_view(series: Mapping[str, Any]) -> dict[str, Any]:
+    """The rows of one series in the appendix layout: the decisive tests at the chosen terms.
+
+    One row per decisive level (the level that is not stationary and the one that is, see
+    :func:`key_tests_view`) under the terms chosen there; every row at a level where no terms were
+    recorded as chosen. ``columns`` are the tests of the cells, in :data:`KEY_TESTS` order.
+    """
+    key = key_tests_view(series)
+    if key is None:
+        return {"columns": [], "rows": []}
+    by_level: dict[Any, list[dict[str, Any]]] = {}
+    for row in key["rows"]:
+        by_level.setdefault(row["level"], []).append(row)
+    rows = [row for level_rows in by_level.values()
+            for row in ([chosen for chosen in level_rows if chosen["chosen"]] or level_rows)]
+    columns = [column["test"] for column in key["columns"]]
+    return {"columns": columns, "rows": [dict(row, tests=dict(zip(columns, row["cells"], strict=True)))
+                                         for row in rows]}
+
+
+def appendix_regression_view(regression: Mapping[str, Any]) -> dict[str, Any]:
+    """The rows of one regression in the appendix layout: the manifest's cointegration test and each fit."""
+    eg = engle_granger_view(regression)
+    manifest_test = next((row["test"] for row in eg["rows"] if row["manifest"]), eg["rows"][0]["test"]) if eg else None
+    return {"cointegration": manifest_test, "fits": _fit_panels(regression)}
+
+
+def sign_off_view(project: Mapping[str, Any]) -> dict[str, Any] | None:
+    """The cover's sign-off block, or ``None`` when the manifest has no ``sign_off``.
+
+    ``prepared_by`` falls back to the project's author; ``reviewed`` is False until a reviewer and
+    a review date are recorded (the cover then says "not yet reviewed").
+    """
+    sign_off = project.get("sign_off")
+    if not isinstance(sign_off, Mapping):
+        return None
+    prepared_by = sign_off.get("prepared_by") or project.get("author") or None
+    reviewed_by = sign_off.get("reviewed_by") or None
+    return {"prepared_by": prepared_by, "prepared_on": sign_off.get("prepared_on") or None,
+            "reviewed_by": reviewed_by, "reviewed_on": sign_off.get("reviewed_on") or None,
+            "reviewed": bool(reviewed_by and sign_off.get("reviewed_on"))}
+
+
+#: A logo the page may show: an inline image of one of these types (built by :mod:`reportgen.branding`).
+_LOGO_URL = re.compile(r"data:image/(png|jpeg|svg\+xml);base64,[A-Za-z0-9+/=]*")
+
+
+def branding_view(project: Mapping[str, Any], logo_url: str | None) -> dict[str, Any]:
+    """The firm's name, disclaimer and logo for the partials; every value ``None`` when not branded."""
+    branding = project.get("branding") if isinstance(project.get("branding"), Mapping) else {}
+    if logo_url is not None and not _LOGO_URL.fullmatch(logo_url):
+        raise ValueError("logo_url must be a base64 data: URL of a PNG, JPEG or SVG image (see reportgen.branding)")
+    return {"firm": branding.get("firm") or None, "disclaimer": branding.get("disclaimer") or None,
+            "logo_url": logo_url, "logo_alt": f"Logo of {branding['firm']}" if branding.get("firm") else "Logo"}
+
+
+#: Layouts of the dossier and the words the page uses for them.
+LAYOUTS: Mapping[str, str] = {
+    "full": "full dossier",
+    "appendix": "referee's appendix (compact tables: no charts, no folded details)",
+}
+#: The template each layout starts from.
+LAYOUT_TEMPLATES: Mapping[str, str] = {"full": ENTRY_TEMPLATE, "appendix": "appendix.html.j2"}
+
+
+def rendering_view(layout: str, template_dirs: Sequence[Path], brand_folder: Path | None) -> dict[str, Any]:
+    """How this page was rendered: the layout, and the user template folders in search order with their files.
+
+    Each folder's files carry their SHA-256 (those of the brand folder are also inputs in
+    results.json); a link out of its folder is not listed, as it is never loaded.
+    """
+    import hashlib
+
+    folders = [(Path(folder), "--templates") for folder in template_dirs]
+    if brand_folder is not None:
+        folders.append((Path(brand_folder), "project.branding.templates"))
+    shown = []
+    for folder, origin in folders:
+        root = folder.resolve()
+        files = []
+        for path in sorted(root.rglob("*")):
+            real = path.resolve()
+            if real.is_file() and real.is_relative_to(root):
+                data = real.read_bytes()
+                files.append({"name": path.relative_to(root).as_posix(), "sha256": hashlib.sha256(data).hexdigest(),
+                              "bytes": len(data)})
+        shown.append({"path": str(root), "origin": origin, "files": files})
+    return {"layout": layout, "layout_text": LAYOUTS[layout], "folders": shown}
+
+
 def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
-                    environment: jinja2.Environment) -> dict[str, Any]:
+                    environment: jinja2.Environment, *, layout: str = "full",
+                    template_dirs: Sequence[Path] = (), brand_folder: Path | None = None,
+                    logo_url: str | None = None) -> dict[str, Any]:
     """Everything the templates see: the document itself plus display helpers (no statistics).
 
     ``document``, ``project``, ``methods``: the results document and two of its parts.
@@ -557,7 +653,12 @@ def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
     ``series_views[name]``: :func:`series_view` (battery table, robustness grid, fan-chart facts, fragility).
     ``regression_views[name]``: :func:`regression_view` (fit rows, Engle-Granger, Johansen, bounds test,
     fragility). ``series_chunks``, ``regression_chunks``: the names in groups of at most
-    :data:`SUMMARY_ROWS`, one summary table each. ``css``: the stylesheet.
+    :data:`SUMMARY_ROWS`, one summary table each. ``css``: the stylesheet; ``colours``: the colour
+    stylesheet (CSS custom properties that ``style.css`` uses), placed before it.
+    ``branding``: :func:`branding_view`; ``sign_off``: :func:`sign_off_view`; ``layout``: ``"full"``
+    or ``"appendix"``; ``rendering``: :func:`rendering_view`; ``appendix_series[name]`` and
+    ``appendix_regressions[name]``: :func:`appendix_series_view`, :func:`appendix_regression_view`
+    (appendix layout only, else empty).
     """
     series: Mapping[str, Any] = document.get("series") or {}
     regressions: Mapping[str, Any] = document.get("regressions") or {}
@@ -577,6 +678,15 @@ def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
         "series_chunks": chunks(series),
         "regression_chunks": chunks(regressions),
         "css": _stylesheet(environment),
+        "colours": _stylesheet(environment, "colours.css"),
+        "branding": branding_view(document.get("project") or {}, logo_url),
+        "sign_off": sign_off_view(document.get("project") or {}),
+        "layout": layout,
+        "rendering": rendering_view(layout, template_dirs, brand_folder),
+        "appendix_series": {name: appendix_series_view(body) for name, body in series.items()}
+        if layout == "appendix" else {},
+        "appendix_regressions": {name: appendix_regression_view(body) for name, body in regressions.items()}
+        if layout == "appendix" else {},
     }
 
 
@@ -590,7 +700,8 @@ def _user_template_frame(error: BaseException, user_dirs: Sequence[Path]) -> Loc
     return location
 
 
-def render_html(document: Mapping[str, Any], plots: Mapping[str, str], template_dirs: Sequence[Path] = ()) -> str:
+def render_html(document: Mapping[str, Any], plots: Mapping[str, str], template_dirs: Sequence[Path] = (), *,
+                layout: str = "full", brand_folder: Path | None = None, logo_url: str | None = None) -> str:
     """The dossier as one self-contained HTML page.
 
     Parameters
@@ -602,7 +713,14 @@ def render_html(document: Mapping[str, Any], plots: Mapping[str, str], template_
         :func:`reportgen.render.plots.render_plots`; a missing chart is simply not shown.
     template_dirs
         Folders searched before the packaged templates (any template or ``style.css`` there
-        replaces the packaged one of the same name).
+        replaces the packaged one of the same name): ``--templates`` folders, in order.
+    layout
+        ``"full"`` (``dossier.html.j2``) or ``"appendix"`` (``appendix.html.j2``: compact tables only).
+    brand_folder
+        The manifest's brand folder (``project.branding.templates``), searched after ``template_dirs``
+        and before the packaged templates.
+    logo_url
+        The brand logo as a base64 ``data:`` URL (:func:`reportgen.branding.logo_data_url`), or None.
 
     Raises
     ------
@@ -616,23 +734,28 @@ def render_html(document: Mapping[str, Any], plots: Mapping[str, str], template_
     StylesheetUnsafeError
         A user ``style.css`` would close its ``<style>`` element.
     """
-    environment = build_environment(template_dirs)
+    if layout not in LAYOUTS:
+        raise ValueError(f"layout must be one of {', '.join(LAYOUTS)}, not {layout!r}")
+    user_dirs = [*template_dirs, *((brand_folder,) if brand_folder is not None else ())]
+    environment = build_environment(user_dirs)
     try:
-        template = environment.get_template(ENTRY_TEMPLATE)
-        return template.render(dossier_context(document, plots, environment))
+        template = environment.get_template(LAYOUT_TEMPLATES[layout])
+        return template.render(dossier_context(document, plots, environment, layout=layout,
+                                               template_dirs=template_dirs, brand_folder=brand_folder,
+                                               logo_url=logo_url))
     except jinja2.TemplateSyntaxError as error:
         raise TemplateSyntaxError(problem=error.message,
                                   location=Location(path=error.filename or error.name, line=error.lineno)) from error
     except jinja2.TemplateNotFound as error:
-        raise TemplateNotFoundError(name=error.name, location=_user_template_frame(error, template_dirs)) from error
+        raise TemplateNotFoundError(name=error.name, location=_user_template_frame(error, user_dirs)) from error
     except TemplateLoadRefusedError as error:
         # The loader refused a name or a file of a user folder, whichever template asked for it.
-        raise TemplateNameRefusedError(problem=str(error), location=_user_template_frame(error, template_dirs),
+        raise TemplateNameRefusedError(problem=str(error), location=_user_template_frame(error, user_dirs),
                                        hint="include or extend templates by their name inside a template folder, "
                                             "e.g. 'partials/summary.html.j2'; links out of the folder are not "
                                             "followed") from error
     except (jinja2.UndefinedError, jinja2.exceptions.SecurityError) as error:
-        location = _user_template_frame(error, template_dirs)
+        location = _user_template_frame(error, user_dirs)
         if location is None:
             raise  # raised by a packaged template: a bug, keep the traceback
         raise TemplateUnsafeError(problem=str(error), location=location) from error
