@@ -1,9 +1,9 @@
 """``reportgen check MANIFEST``: everything a run checks before the statistics, and a summary of what it found.
 
-The manifest is validated, every dataset read, every series built under its missing-data policy
-and transforms, and every regression's sample aligned, with the same catalogue errors as a run;
-no statistic is computed and nothing is written. Also :func:`manifest_schema`, the manifest's JSON
-Schema, for editors.
+The manifest is validated, its brand folder and logo read, every dataset read, every series built
+under its missing-data policy and transforms, and every regression's sample aligned, with the same
+catalogue errors as a run; no statistic is computed and nothing is written. Also
+:func:`manifest_schema`, the manifest's JSON Schema, for editors.
 """
 
 from __future__ import annotations
@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from reportgen.branding import brand_files
 from reportgen.errors import ReportgenError
 from reportgen.manifest import ManifestSpec, load_manifest
 from reportgen.periods import period_label
@@ -41,6 +42,7 @@ class Preflight:
 def check_manifest(path: Path | str) -> Preflight:
     """Validate a manifest and its data as a run would, without the statistics; raise the first catalogue error."""
     manifest = load_manifest(path)
+    brand_files(manifest)  # the brand folder and the logo, as a run reads them first
     tables = load_tables(manifest)
     built = build_series(manifest, tables)
     refuse_short_series(manifest, built)

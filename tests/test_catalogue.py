@@ -674,6 +674,15 @@ def _(p: Project) -> tuple[list[str], str]:
     return p.run("--format", "html", "--templates", str(p.root / "nowhere")), "error[template-folder-missing]"
 
 
+@case("logo-unusable")
+def _(p: Project) -> tuple[list[str], str]:
+    p.edit("  title: Small check", "  title: Small check\n  branding:\n    logo: brand/logo.png")
+    p.write()
+    (p.manifest.parent / "brand").mkdir()
+    (p.manifest.parent / "brand" / "logo.png").write_text("not an image\n", encoding="utf-8")
+    return p.run("--format", "html"), f"{p.where('logo: brand/logo.png')}5: error[logo-unusable]"
+
+
 @case("template-syntax")
 def _(p: Project) -> tuple[list[str], str]:
     p.write()

@@ -364,10 +364,13 @@ def test_hostile_strings_leave_no_live_markup(hostile_soup: BeautifulSoup) -> No
     urls = [value for element in hostile_soup.find_all(True) for name, value in element.attrs.items()
             if name.lower() in ("href", "src", "xlink:href", "action") and "javascript:" in str(value).lower()]
     assert urls == []
-    # '</style>' in the data does not close the stylesheet: one <style>, holding the packaged stylesheet only.
+    # '</style>' in the data does not close the stylesheet: one <style>, holding the packaged stylesheets only
+    # (the colours, then the layout).
     styles = hostile_soup.find_all("style")
     assert len(styles) == 1
-    assert styles[0].string.strip() == (packaged_templates_dir() / "style.css").read_text(encoding="utf-8").strip()
+    packaged = [(packaged_templates_dir() / name).read_text(encoding="utf-8").split() for name in
+                ("colours.css", "style.css")]
+    assert styles[0].string.split() == packaged[0] + packaged[1]
 
 
 def test_hostile_strings_appear_as_text(hostile_soup: BeautifulSoup) -> None:

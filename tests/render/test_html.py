@@ -676,7 +676,7 @@ def test_user_templates_are_searched_first(tmp_path: Path, document: dict[str, A
     assert "Client edition" in html
     assert document["project"]["client"] in html  # the packaged cover, reached through default/
     assert "#123456" in html
-    assert "--flag-bg" not in html
+    assert "border-collapse" not in html  # the packaged style.css is replaced (colours.css, its palette, stays)
 
 
 def test_user_dossier_can_extend_base_blocks(tmp_path: Path, document: dict[str, Any]) -> None:
