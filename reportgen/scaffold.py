@@ -28,6 +28,15 @@ project:
   client: "Tarrow Valley Water Board"
   author: "Your name"
   reference: "TVWB-0001"
+  # branding:                      # a firm's look (see the README, "Branding")
+  #   templates: brand             # folder of templates replacing reportgen's (colours.css, partials/...)
+  #   firm: "Your firm"
+  #   logo: brand/logo.png         # PNG, JPEG or plain SVG
+  #   disclaimer: "Added after the standard cautions, never instead of them."
+  # sign_off:                      # a sign-off table on the cover; "not yet reviewed" until reviewed
+  #   prepared_on: 2026-01-15      # ISO dates, YYYY-MM-DD
+  #   reviewed_by: "Reviewer's name"
+  #   reviewed_on: 2026-01-22
 
 datasets:
   board:
