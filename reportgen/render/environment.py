@@ -4,8 +4,9 @@ Autoescaping is on for every template, undefined names raise (``StrictUndefined`
 filter the templates use is registered here, in :data:`FILTERS`. Filters only *format*: they turn
 numbers into text and vocabulary words into sentences; they never compute a statistic.
 
-Templates are searched in the user's folders first (a manifest's ``templates:`` folder or
-``--templates DIR``), then in the packaged ``templates/`` folder. A user template can reach the
+Templates are searched in the user's folders first (every ``--templates DIR`` in the order given,
+then the manifest's brand folder, ``project.branding.templates``), then in the packaged
+``templates/`` folder. A user template can reach the
 packaged version of a file it replaces through the ``default/`` prefix, e.g.
 ``{% extends "default/partials/summary.html.j2" %}``.
 
