@@ -20,7 +20,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from reportgen.errors import Location, LogoUnusableError, TemplateFolderMissingError
+from reportgen.errors import InvalidValueError, Location, LogoUnusableError, TemplateFolderMissingError
 from reportgen.manifest import Manifest
 from reportgen.provenance import sha256_bytes
 
@@ -59,7 +59,13 @@ def brand_folder(manifest: Manifest) -> Path | None:
         raise TemplateFolderMissingError(location=manifest.locate("project", "branding", "templates"), path=folder,
                                          hint="name a folder relative to the manifest's folder, e.g. "
                                               "'templates: brand', or remove the key")
-    return folder.resolve()
+    resolved = folder.resolve()
+    if manifest.path.is_relative_to(resolved):
+        raise InvalidValueError(location=manifest.locate("project", "branding", "templates"),
+                                problem=f"the brand folder {resolved} holds the manifest; every file in it is hashed "
+                                        "as an input, so it would take in the data and the outputs too",
+                                remedy="keep the brand templates in a folder of their own, e.g. 'templates: brand'")
+    return resolved
 
 
 def template_folders(manifest: Manifest, command_line: Sequence[Path] = ()) -> tuple[Path, ...]:

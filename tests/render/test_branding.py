@@ -162,6 +162,38 @@ def test_a_missing_brand_folder_is_named_with_its_manifest_line(small_project: C
     assert not (tmp_path / "out").exists()
 
 
+def test_a_brand_folder_holding_the_manifest_is_refused(small_project: Callable[..., Path], small_manifest: str,
+                                                        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    manifest = small_project(small_manifest.replace("  title: Small check\n",
+                                                    "  title: Small check\n  branding:\n    templates: .\n"))
+    assert cli.main(["check", str(manifest)]) == 2
+    assert capsys.readouterr().err == (
+        f"{manifest}:5:5: error[invalid-value]: project.branding.templates: the brand folder {manifest.parent} "
+        "holds the manifest; every file in it is hashed as an input, so it would take in the data and the outputs "
+        "too\n  hint: keep the brand templates in a folder of their own, e.g. 'templates: brand'\n")
+
+
+def test_check_reads_the_logo(branded_project: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    assert cli.main(["check", str(branded_project)]) == 0
+    capsys.readouterr()
+    (branded_project.parent / "brand" / "logo.png").write_bytes(b"GIF89a")
+    assert cli.main(["check", str(branded_project)]) == 2
+    assert capsys.readouterr().err == (
+        f"{branded_project}:9:5: error[logo-unusable]: project.branding.logo: the logo "
+        f"{branded_project.parent / 'brand' / 'logo.png'} cannot be used: it is not a PNG, a JPEG or a plain SVG "
+        "drawing (no scripts, event handlers, style elements or links to other files)\n"
+        "  hint: save the logo as PNG, JPEG or plain SVG\n")
+
+
+def test_an_svg_logo_with_a_script_is_refused() -> None:
+    from reportgen.branding import logo_media_type
+
+    plain = '<?xml version="1.0"?>\n<svg xmlns="http://www.w3.org/2000/svg"><rect width="4" height="2"/></svg>'
+    assert logo_media_type(plain.encode()) == "image/svg+xml"
+    assert logo_media_type(plain.replace("<rect", "<script>alert(1)</script><rect").encode()) is None
+    assert logo_media_type(plain.replace("<rect", '<image href="file:///etc/passwd"/><rect').encode()) is None
+
+
 def test_a_brand_template_error_points_into_the_brand_folder(branded_project: Path, tmp_path: Path,
                                                              capsys: pytest.CaptureFixture[str]) -> None:
     cover = branded_project.parent / "brand" / "partials" / "cover.html.j2"
