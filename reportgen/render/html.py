@@ -16,6 +16,7 @@ trail, notes) is folded in a ``<details>`` element.
 
 from __future__ import annotations
 
+import hashlib
 import itertools
 import re
 import traceback
@@ -555,19 +556,19 @@ def appendix_series_view(series: Mapping[str, Any]) -> dict[str, Any]:
 
     One row per decisive level (the level that is not stationary and the one that is, see
     :func:`key_tests_view`) under the terms chosen there; every row at a level where no terms were
-    recorded as chosen. ``columns`` are the tests of the cells, in :data:`KEY_TESTS` order.
+    recorded as chosen. Each row's ``tests`` maps a test name to its result (the table's columns are
+    :data:`KEY_TESTS`, as ``appendix_tests`` in the context).
     """
     key = key_tests_view(series)
     if key is None:
-        return {"columns": [], "rows": []}
+        return {"rows": []}
     by_level: dict[Any, list[dict[str, Any]]] = {}
     for row in key["rows"]:
         by_level.setdefault(row["level"], []).append(row)
     rows = [row for level_rows in by_level.values()
             for row in ([chosen for chosen in level_rows if chosen["chosen"]] or level_rows)]
     columns = [column["test"] for column in key["columns"]]
-    return {"columns": columns, "rows": [dict(row, tests=dict(zip(columns, row["cells"], strict=True)))
-                                         for row in rows]}
+    return {"rows": [dict(row, tests=dict(zip(columns, row["cells"], strict=True))) for row in rows]}
 
 
 def appendix_regression_view(regression: Mapping[str, Any]) -> dict[str, Any]:
@@ -621,8 +622,6 @@ def rendering_view(layout: str, template_dirs: Sequence[Path], brand_folder: Pat
     Each folder's files carry their SHA-256 (those of the brand folder are also inputs in
     results.json); a link out of its folder is not listed, as it is never loaded.
     """
-    import hashlib
-
     folders = [(Path(folder), "--templates") for folder in template_dirs]
     if brand_folder is not None:
         folders.append((Path(brand_folder), "project.branding.templates"))
@@ -658,7 +657,7 @@ def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
     ``branding``: :func:`branding_view`; ``sign_off``: :func:`sign_off_view`; ``layout``: ``"full"``
     or ``"appendix"``; ``rendering``: :func:`rendering_view`; ``appendix_series[name]`` and
     ``appendix_regressions[name]``: :func:`appendix_series_view`, :func:`appendix_regression_view`
-    (appendix layout only, else empty).
+    (appendix layout only, else empty); ``appendix_tests``: the test columns of the appendix's series table.
     """
     series: Mapping[str, Any] = document.get("series") or {}
     regressions: Mapping[str, Any] = document.get("regressions") or {}
@@ -683,6 +682,7 @@ def dossier_context(document: Mapping[str, Any], plots: Mapping[str, str],
         "sign_off": sign_off_view(document.get("project") or {}),
         "layout": layout,
         "rendering": rendering_view(layout, template_dirs, brand_folder),
+        "appendix_tests": list(KEY_TESTS),
         "appendix_series": {name: appendix_series_view(body) for name, body in series.items()}
         if layout == "appendix" else {},
         "appendix_regressions": {name: appendix_regression_view(body) for name, body in regressions.items()}

@@ -355,3 +355,23 @@ def test_the_appendix_pdf_lists_every_series(small_project: Callable[..., Path],
         assert name in text
     assert "referee's appendix" in text
     assert "Appendix A" not in text  # no methods appendix in this layout
+
+
+def test_the_appendix_of_the_fixture_document_has_every_item(document: dict[str, Any]) -> None:
+    soup = BeautifulSoup(render_html(document, {}, layout="appendix"), "html.parser")
+    series = [block["data-series"] for block in soup.select("tbody.appendix-block[data-series]")]
+    regressions = [block["data-regression"] for block in soup.select("tbody.appendix-block[data-regression]")]
+    assert series == list(document["series"])
+    assert regressions == list(document["regressions"])
+    verdicts = [cell["data-verdict"] for cell in soup.select("table.appendix-regressions .verdict-cell")]
+    assert verdicts == [body["verdict"] for body in document["regressions"].values()]
+    undetermined = [name for name, body in document["series"].items() if body["order"] is None]
+    assert undetermined == ["survey"]
+    for name in undetermined:
+        block = soup.select_one(f'tbody[data-series="{name}"]')
+        assert "undetermined" in block.get_text(" ", strip=True)
+
+
+def test_an_unknown_layout_is_a_bug(document: dict[str, Any]) -> None:
+    with pytest.raises(ValueError, match="layout must be one of full, appendix, not 'compact'"):
+        render_html(document, {}, layout="compact")
