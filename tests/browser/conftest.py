@@ -113,7 +113,9 @@ def dossier(tmp_path_factory: pytest.TempPathFactory) -> Dossier:
     manifest = folder / "manifest.yaml"
     manifest.write_text(MANIFEST, encoding="utf-8")
     out = folder / "out"
-    outcome = run(manifest, out, ("html", "pdf"), command=["reportgen", "run", "manifest.yaml"], cache=None)
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setenv("SOURCE_DATE_EPOCH", "1764633600")  # a fixed run date: the same pages, the same screenshots
+        outcome = run(manifest, out, ("html", "pdf"), command=["reportgen", "run", "manifest.yaml"], cache=None)
     verdicts = {name: regression["verdict"] for name, regression in outcome.document["regressions"].items()}
     assert verdicts == VERDICTS
     return Dossier(out, out / "dossier.html", out / "dossier.pdf")
