@@ -3,6 +3,7 @@
 Commands:
   reportgen run MANIFEST --out DIR [--format html,pdf|json] [--appendix] [--bundle] [--force] [--fail-on CONDITION]
                 [--jobs N | --cluster ADDRESS] [--cache DIR | --no-cache] [--quiet]
+                [--color auto|always|never] [--summary auto|full|short]
   reportgen verify DIR_OR_BUNDLE [--recompute] [--tolerance 1e-9]
   reportgen diff OLD NEW [--html FILE] [--tolerance 1e-6] [--exit-code]
   reportgen init DIR | check MANIFEST | schema | explain [CODE]
@@ -32,6 +33,7 @@ from typing import Any
 
 from reportgen import __version__
 from reportgen.errors import ReportgenError
+from reportgen.summary import COLOUR_CHOICES, DETAILS, FULL_LIMIT, colour_wanted, format_summary
 
 EXIT_OK = 0
 EXIT_CONDITION = 1
@@ -140,6 +142,13 @@ def build_parser() -> argparse.ArgumentParser:
     caching.add_argument("--no-cache", action="store_true", dest="no_cache",
                          help="compute everything again and store nothing")
     run.add_argument("--quiet", action="store_true", help="print nothing but errors")
+    run.add_argument("--color", choices=COLOUR_CHOICES, default="auto", metavar="WHEN",
+                     help="colour the closing summary: auto (on a terminal, unless NO_COLOR or CI is set; the "
+                          "default), always or never")
+    run.add_argument("--summary", choices=DETAILS, default="auto", dest="summary_detail", metavar="DETAIL",
+                     help=f"the closing summary: full (a line per series and regression), short (counts by order "
+                          f"and verdict, then the flagged regressions) or auto (full up to {FULL_LIMIT} series and "
+                          f"{FULL_LIMIT} regressions; the default)")
     run.add_argument("--debug", action="store_true", help="show tracebacks of errors")
 
     verify = commands.add_parser("verify", help="check a dossier or bundle against its recorded inputs")
@@ -176,20 +185,6 @@ def build_parser() -> argparse.ArgumentParser:
     explain = commands.add_parser("explain", help="describe an error code (as printed in error[CODE]), or list them")
     explain.add_argument("code", nargs="?", metavar="CODE", help="an error code such as non-numeric; omit to list all")
     return parser
-
-
-def _summary(document: dict, out_dir: Path, files: Sequence[Path]) -> str:  # type: ignore[type-arg]
-    lines = [f"reportgen {document['tool_version']}  run {document['run_id']}"]
-    width = max((len(name) for name in document["regressions"]), default=10)
-    for name, regression in document["regressions"].items():
-        mark = "  needs attention" if regression["flagged"] else ""
-        lines.append(f"  {name:<{width}}  {regression['verdict']}{mark}")
-    counts = document["summary"]
-    lines.append(f"{len(document['series'])} series, {len(document['regressions'])} regressions, "
-                 f"{counts['flagged']} flagged")
-    for path in files:
-        lines.append(f"wrote {path}")
-    return "\n".join(lines)
 
 
 def failing_regressions(document: Mapping[str, Any], conditions: Sequence[str]) -> dict[str, list[str]]:
@@ -264,7 +259,8 @@ def _run_command(options: argparse.Namespace, arguments: Sequence[str]) -> int:
                   force=options.force, jobs=options.jobs, cluster=options.cluster, cache=cache,
                   layout="appendix" if options.appendix else "full")
     if not options.quiet:
-        print(_summary(dict(outcome.document), outcome.out_dir, outcome.files))
+        print(format_summary(outcome.document, out_dir=outcome.out_dir, files=outcome.files,
+                             colour=colour_wanted(options.color, sys.stdout), detail=options.summary_detail))
     conditions = [condition for group in options.fail_on for condition in group]
     failing = {condition: names for condition, names in failing_regressions(outcome.document, conditions).items()
                if names}

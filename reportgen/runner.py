@@ -761,7 +761,8 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
 
                 display.start("PDF")
                 render_pdf(html, staging / "dossier.pdf", base_dir=manifest.base_dir, created=document["created"],
-                           attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=user_dirs)
+                           attachments=(manifest.path, staging / RESULTS_FILE), template_dirs=user_dirs,
+                           parallel=executor is not None and not isinstance(executor, SerialExecutor))
                 display.finish("PDF")
                 written.append("dossier.pdf")
         if "tables" in formats:

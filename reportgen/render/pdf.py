@@ -21,6 +21,7 @@ from __future__ import annotations
 import base64
 import contextlib
 import datetime
+import html as htmlmodule
 import logging
 import mimetypes
 import os
@@ -118,14 +119,16 @@ def pdf_timestamp(created: str) -> datetime.datetime:
 
 @dataclass(frozen=True, slots=True)
 class BuiltPdf:
-    """A laid-out dossier: the PDF bytes, its page count and title, WeasyPrint's warnings, and whether
-    the folded parts of the series sections are in the PDF (else in the attached HTML)."""
+    """A laid-out dossier: the PDF bytes, its page count and title, WeasyPrint's warnings, whether
+    the folded parts of the series sections are in the PDF (else in the attached HTML), and how
+    many parts it was laid out in (1: in one piece; see :mod:`reportgen.render.paged`)."""
 
     data: bytes
     pages: int
     title: str | None = None
     warnings: tuple[str, ...] = ()
     details: bool = True
+    parts: int = 1
 
 
 class _Collect(logging.Handler):
@@ -277,7 +280,8 @@ def _svg_text_in_one_piece() -> Iterator[None]:
 
 
 def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[Path] = (),
-              template_dirs: Sequence[Path] = (), details: bool | None = None) -> BuiltPdf:
+              template_dirs: Sequence[Path] = (), details: bool | None = None, parts: bool | None = None,
+              parallel: bool = True) -> BuiltPdf:
     """Lay out ``html`` with WeasyPrint and return the PDF bytes (see :func:`render_pdf`)."""
     from weasyprint import HTML, Attachment  # type: ignore[import-untyped]
     from weasyprint.urls import FatalURLFetchingError
@@ -295,6 +299,24 @@ def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[
                                 relationship="Data" if path.suffix == ".json" else "Source"))
     if details is None:
         details = series_sections(html) <= PDF_DETAIL_LIMIT
+    large = series_sections(html) > PDF_DETAIL_LIMIT
+    if parts if parts is not None else large:
+        from reportgen.render.paged import build_in_parts
+
+        payloads: list[tuple[str, Any]] = [
+            ("file", {"filename": str(Path(path)), "name": Path(path).name,
+                      "description": f"{Path(path).name}, attached by reportgen",
+                      "relationship": "Data" if Path(path).suffix == ".json" else "Source"}) for path in attachments]
+        if not details:
+            payloads.append(("string", {"string": html, "name": ATTACHED_HTML, "relationship": "Supplement",
+                                        "description": f"{ATTACHED_HTML}: the dossier with every record of every "
+                                                       "series, attached by reportgen"}))
+        joined = build_in_parts(paper_html(html, details=details), base_url=str(Path(base_dir).resolve()) + os.sep,
+                                roots=fetcher.roots, created=created, attachments=payloads, parallel=parallel)
+        if joined is not None:
+            data, pages, warnings, count = joined
+            return BuiltPdf(data=data, pages=pages, title=_title(html), warnings=warnings, details=details,
+                            parts=count)
     if not details:
         files.append(Attachment(string=html, name=ATTACHED_HTML, description=f"{ATTACHED_HTML}: the dossier with "
                                 "every record of every series, attached by reportgen", created=moment,
@@ -321,8 +343,15 @@ def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[
                     warnings=tuple(log.messages), details=details)
 
 
+def _title(html: str) -> str | None:
+    """The page's title, as WeasyPrint reads it into the PDF's metadata."""
+    found = re.search(r"<title>(.*?)</title>", html, re.DOTALL)
+    return htmlmodule.unescape(found.group(1)).strip() if found else None
+
+
 def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attachments: Sequence[Path] = (),
-               template_dirs: Sequence[Path] = (), details: bool | None = None) -> BuiltPdf:
+               template_dirs: Sequence[Path] = (), details: bool | None = None, parts: bool | None = None,
+               parallel: bool = True) -> BuiltPdf:
     """Write the dossier PDF to ``out_path`` (atomically: a temporary file, then a rename).
 
     Parameters
@@ -345,6 +374,13 @@ def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attac
         decision trail, notes) is laid out in the PDF, in smaller type; without it the PDF carries
         the HTML page as the attachment ``dossier.html``. ``None`` (the default): for a dossier of
         at most :data:`PDF_DETAIL_LIMIT` series.
+    parts
+        Whether the document is laid out in parts and joined (:mod:`reportgen.render.paged`);
+        ``None`` (the default): for a dossier of more than :data:`PDF_DETAIL_LIMIT` series. The
+        pages are the same either way but for the index's page numbers, which sit in a column.
+    parallel
+        Whether the parts are laid out at once in worker processes (else one after the other, in
+        two passes); the bytes are the same either way.
 
     Returns
     -------
@@ -357,7 +393,7 @@ def render_pdf(html: str, out_path: Path, *, base_dir: Path, created: str, attac
         The HTML refers to a network resource or to a file outside the allowed folders.
     """
     built = build_pdf(html, base_dir=base_dir, created=created, attachments=attachments, template_dirs=template_dirs,
-                      details=details)
+                      details=details, parts=parts, parallel=parallel)
     out_path = Path(out_path)
     # A plain open() so the file gets the usual permissions (umask), unlike tempfile's 0600.
     temporary = out_path.with_name(f".{out_path.name}.{os.getpid()}.partial")
