@@ -38,7 +38,8 @@ BRANDED = """\
 COLOURS = (":root { --ink: #111111; --muted: #555555; --rule: #cccccc; --faint: #f5f5f5; --accent: #6a1b4d; "
            "--flag: #8f3f00; --flag-bg: #fff3e3; --flag-edge: #c8661a; --ok: #1d5640; --ok-bg: #e7f2ec; "
            "--brand: #6a1b4d; --page-text: #555555; }\n")
-COVER = ('<header class="cover" id="{{ ids.cover }}">\n<p class="quill-cover">Quillfeather review edition</p>\n'
+COVER = ('<header class="cover" id="{{ ids.cover }}">\n{% include "partials/page_header.html.j2" %}\n'
+         '{% include "partials/page_footer.html.j2" %}\n<p class="quill-cover">Quillfeather review edition</p>\n'
          '{% include "partials/logo.html.j2" %}\n<h1 class="project-title">{{ project.title }}</h1>\n'
          '{% include "partials/sign_off.html.j2" %}\n</header>\n')
 
@@ -375,3 +376,21 @@ def test_the_appendix_of_the_fixture_document_has_every_item(document: dict[str,
 def test_an_unknown_layout_is_a_bug(document: dict[str, Any]) -> None:
     with pytest.raises(ValueError, match="layout must be one of full, appendix, not 'compact'"):
         render_html(document, {}, layout="compact")
+
+
+def test_a_pdf_laid_out_in_parts_keeps_the_running_header_and_footer(document_master: dict[str, Any],
+                                                                     tmp_path: Path) -> None:
+    from reportgen.render.pdf import build_pdf
+
+    document = dict(document_master, series={"boxes": document_master["series"]["boxes"]},
+                    regressions={"boxes_on_fuel": document_master["regressions"]["boxes_on_fuel"]})
+    document["project"] = dict(document["project"], branding={"firm": FIRM})
+    html = render_html(document, {})
+    built = build_pdf(html, base_dir=tmp_path, created=document["created"], parts=True, parallel=False)
+    assert built.parts > 1
+    output = tmp_path / "parts.pdf"
+    output.write_bytes(built.data)
+    pages = pdf_text(output)
+    assert len(pages) == built.pages
+    assert all(FIRM in page for page in pages)  # the running footer, carried into every part with the cover
+    assert all(document["project"]["title"] in page for page in pages[1:])  # the running header
