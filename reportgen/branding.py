@@ -30,6 +30,8 @@ BRAND_ROLE = "brand"
 LOGO_INPUT = "brand:logo"
 #: Input names of the brand folder's files start with this, followed by the file's path in the folder.
 TEMPLATE_INPUT_PREFIX = "brand:templates/"
+#: Version-control folders inside a brand folder: their files are history, not branding, and are not hashed.
+VERSION_CONTROL_FOLDERS = frozenset({".git", ".hg", ".svn"})
 #: The largest logo reportgen embeds (it is inlined in the HTML page as a data: URL).
 LOGO_LIMIT = 2_000_000
 
@@ -117,7 +119,8 @@ def _read_logo(manifest: Manifest) -> BrandFile | None:
 
 
 def brand_files(manifest: Manifest) -> tuple[BrandFile, ...]:
-    """The logo, then every file of the brand folder by path (links out of the folder are left out).
+    """The logo, then every file of the brand folder by path (links out of the folder and version-control
+    folders such as ``.git`` are left out).
 
     A link that leads out of the folder is never loaded (templates and the PDF's resources are
     read only inside their folders), so it is not an input. The logo is listed once, as the logo,
@@ -131,7 +134,7 @@ def brand_files(manifest: Manifest) -> tuple[BrandFile, ...]:
         return tuple(files)
     found: list[tuple[str, Path]] = []
     for top, folders, names in os.walk(folder):
-        folders.sort()
+        folders[:] = sorted(name for name in folders if name not in VERSION_CONTROL_FOLDERS)
         for name in names:
             path = Path(top) / name
             real = path.resolve()

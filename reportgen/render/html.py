@@ -620,7 +620,8 @@ def rendering_view(layout: str, template_dirs: Sequence[Path], brand_folder: Pat
     """How this page was rendered: the layout, and the user template folders in search order with their files.
 
     Each folder's files carry their SHA-256 (those of the brand folder are also inputs in
-    results.json); a link out of its folder is not listed, as it is never loaded.
+    results.json); a link out of its folder is not listed, as it is never loaded, nor are
+    version-control folders (``.git``, ``.hg``, ``.svn``).
     """
     folders = [(Path(folder), "--templates") for folder in template_dirs]
     if brand_folder is not None:
@@ -631,7 +632,8 @@ def rendering_view(layout: str, template_dirs: Sequence[Path], brand_folder: Pat
         files = []
         for path in sorted(root.rglob("*")):
             real = path.resolve()
-            if real.is_file() and real.is_relative_to(root):
+            hidden = any(part in (".git", ".hg", ".svn") for part in path.relative_to(root).parts)
+            if real.is_file() and real.is_relative_to(root) and not hidden:
                 data = real.read_bytes()
                 files.append({"name": path.relative_to(root).as_posix(), "sha256": hashlib.sha256(data).hexdigest(),
                               "bytes": len(data)})

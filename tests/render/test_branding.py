@@ -115,6 +115,17 @@ def test_brand_files_are_inputs_with_their_hashes(branded_project: Path, tmp_pat
     assert cli.main(["verify", str(out), "--recompute"]) == 0  # the recomputation hashes the same brand files
 
 
+def test_version_control_folders_of_the_brand_folder_are_not_inputs(branded_project: Path, tmp_path: Path) -> None:
+    history = branded_project.parent / "brand" / ".git"
+    history.mkdir()
+    (history / "HEAD").write_text("ref: refs/heads/main\n", encoding="utf-8")
+    (branded_project.parent / "brand" / ".notes.txt").write_text("kept\n", encoding="utf-8")
+    outcome = run(branded_project, tmp_path / "out", (), command=["reportgen", "run"])
+    names = [entry["name"] for entry in outcome.document["inputs"] if entry["role"] == "brand"]
+    assert names == ["brand:logo", "brand:templates/.notes.txt", "brand:templates/colours.css",
+                     "brand:templates/partials/cover.html.j2"]
+
+
 def test_a_changed_brand_file_changes_the_run_id(branded_project: Path, tmp_path: Path) -> None:
     first = run(branded_project, tmp_path / "one", (), command=["reportgen", "run"])
     (branded_project.parent / "brand" / "colours.css").write_text(COLOURS.replace("6a1b4d", "22577a"))
