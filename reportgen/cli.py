@@ -203,7 +203,8 @@ def _crash_report(error: BaseException) -> Path:
 
 
 #: Options of ``run`` that choose where and how the statistics are computed, never what they compute.
-EXECUTION_OPTIONS: dict[str, bool] = {"--jobs": True, "--cluster": True, "--cache": True, "--no-cache": False}
+EXECUTION_OPTIONS: dict[str, bool] = {"--jobs": True, "--cluster": True, "--cache": True, "--no-cache": False,
+                                     "--color": True, "--summary": True, "--quiet": False}
 
 
 def recorded_command(arguments: Sequence[str]) -> list[str]:
