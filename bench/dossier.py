@@ -218,6 +218,7 @@ def run_size(series_count: int, *, seed: int = SEED, cache: Path | None = None, 
             report["pdf_details"] = built.details
             report["pdf_parts"] = built.parts
             report["pdf_worker_cpu"] = built.worker_seconds
+            report["pdf_worker_peak_mib"] = built.worker_peak_mib
             report["pdf_bytes"] = len(built.data)
             report["pdf_warnings"] = [message for message in built.warnings if "HarfBuzz" not in message][:5]
     report["max_rss_mib"] = _max_rss_mib()
@@ -288,7 +289,9 @@ def _line(report: dict[str, Any]) -> str:
     return (f"{report['series']:>6} series, {report['regressions']} regressions | statistics {statistics} | "
             f"charts {report['charts']:.1f} s [{report['charts_cpu']:.1f}] ({charts} charts, {per_chart:.1f} ms "
             f"each [{per_chart_cpu:.1f}]) | HTML {report['html']:.1f} s [{report['html_cpu']:.1f}] "
-            f"({report['html_bytes'] / 2**20:.1f} MiB) | PDF {pdf} | peak memory {report['max_rss_mib']:.0f} MiB")
+            f"({report['html_bytes'] / 2**20:.1f} MiB) | PDF {pdf} | peak memory {report['max_rss_mib']:.0f} MiB"
+            + (f", largest PDF worker {report['pdf_worker_peak_mib']:.0f} MiB" if report.get("pdf_worker_peak_mib")
+               else ""))
 
 
 def _checks(reports: Sequence[dict[str, Any]]) -> list[tuple[str, bool]]:

@@ -34,6 +34,7 @@ import math
 import multiprocessing
 import queue
 import re
+import resource
 import tempfile
 import time
 import traceback
@@ -99,6 +100,21 @@ class LaidOut:
     pdf: Path
     #: CPU seconds of the worker process that laid the part out (0 when laid out in this process).
     seconds: float = 0.0
+    #: Peak resident memory of that worker process, in MiB (0 likewise).
+    peak_mib: float = 0.0
+
+
+@dataclass(frozen=True)
+class Joined:
+    """The joined PDF: bytes, pages, WeasyPrint's warnings, the number of parts, and what the workers
+    spent (CPU seconds in all, the largest peak memory in MiB; zero when laid out in this process)."""
+
+    data: bytes
+    pages: int
+    warnings: tuple[str, ...]
+    parts: int
+    worker_seconds: float
+    worker_peak_mib: float
 
 
 @dataclass
@@ -492,7 +508,8 @@ def _worker(number: int, part: Part, settings: Settings, replies: Any, events: A
 
             laid = lay_out(part, number, settings, wait,
                            anchored=lambda anchors: events.put(("anchors", number, anchors)))
-        events.put(("done", number, dataclasses.replace(laid, seconds=time.process_time())))
+        peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024  # Linux: KiB
+        events.put(("done", number, dataclasses.replace(laid, seconds=time.process_time(), peak_mib=peak)))
     except BaseException:  # reported to the parent, which lays the dossier out in one piece instead
         events.put(("failed", number, traceback.format_exc()))
 
@@ -664,8 +681,8 @@ def _outline_items(tree: Sequence[Any]) -> list[Any]:
 
 def build_in_parts(paper: str, *, base_url: str, roots: Sequence[Path], created: str,
                    attachments: Sequence[tuple[str, Any]],
-                   parallel: bool) -> tuple[bytes, int, tuple[str, ...], int, float] | None:
-    """The PDF of ``paper`` laid out in parts: (bytes, pages, warnings, parts, workers' CPU seconds), or ``None``.
+                   parallel: bool) -> Joined | None:
+    """The PDF of the paper form ``paper`` laid out in parts and joined, or ``None``.
 
     ``None`` when the page cannot be cut (see :func:`split_parts`) or a worker failed; the
     caller then lays the document out in one piece, which also reports any error properly.
@@ -682,4 +699,6 @@ def build_in_parts(paper: str, *, base_url: str, roots: Sequence[Path], created:
             return None
         data, pages = join(parts, laid)
     warnings = tuple(message for part in laid for message in part.warnings)
-    return data, pages, warnings, len(parts), sum(part.seconds for part in laid)
+    return Joined(data=data, pages=pages, warnings=warnings, parts=len(parts),
+                  worker_seconds=sum(part.seconds for part in laid),
+                  worker_peak_mib=max((part.peak_mib for part in laid), default=0.0))
