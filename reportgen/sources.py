@@ -51,6 +51,7 @@ from reportgen.errors import (
     MissingValuesError,
     NonNumericCellsError,
     RaggedRowsError,
+    ReportgenError,
     ServerUnreachableError,
     ServerUrlInvalidError,
     ServerUrlUnsetError,
@@ -790,9 +791,20 @@ def read_server_table(name: str, dialect: str, url_env: str, query: str, index_c
     else:
         source, raw = query_snapshot(dialect, url_env, query, where, query_where, timeout=timeout, environ=environ)
     display = source.display()
-    rows, _ = _csv_rows(raw, display, display, where)
-    return _table_from_rows(name, None, display, display, raw, rows, list(range(1, len(rows) + 1)), "result row",
-                            index_column, declared, where, index_where, missing=missing, sort=sort, server=source)
+    try:
+        rows, _ = _csv_rows(raw, display, display, query_where)
+        return _table_from_rows(name, None, display, display, raw, rows, list(range(1, len(rows) + 1)),
+                                "result row", index_column, declared, query_where, index_where, missing=missing,
+                                sort=sort, server=source)
+    except DataEmptyError as error:
+        raise DataEmptyError(error.message, location=query_where,
+                             hint="check the query's conditions and that its tables hold rows") from None
+    except ReportgenError as error:
+        # A problem at a row of the result is located at the manifest's query (a server has no file lines);
+        # the message names the result row.
+        if error.location is None or str(error.location.path) != display:
+            raise
+        raise type(error)(error.message, location=query_where, hint=error.hint) from None
 
 
 def convert_frequency(column: Column, source: str, target: str, how: str, where: Location) -> tuple[Column, str]:

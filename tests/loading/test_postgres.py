@@ -266,6 +266,30 @@ def test_a_query_can_only_read(tmp_path: Path, pg_schema: Schema, monkeypatch: p
     assert not (tmp_path / "out").exists()
 
 
+def test_a_problem_in_the_result_points_at_the_query(tmp_path: Path, pg_schema: Schema,
+                                                     monkeypatch: pytest.MonkeyPatch,
+                                                     capsys: pytest.CaptureFixture[str]) -> None:
+    pg_schema.load_demo()
+    monkeypatch.setenv(VARIABLE, pg_schema.url)
+    manifest = _project(tmp_path, pg_schema.name)
+    line = next(number for number, row in enumerate(manifest.read_text().splitlines(), 1) if "query:" in row)
+    server = _display(pg_schema.url)
+    text = manifest.read_text(encoding="utf-8")
+    manifest.write_text(text.replace("harbour_monthly ORDER BY 1", "harbour_monthly ORDER BY 1 DESC"), encoding="utf-8")
+    assert cli.main(["check", str(manifest)]) == 2
+    assert capsys.readouterr().err.splitlines()[0] == (
+        f"{manifest}:{line}:5: error[dates-unsorted]: datasets.harbour.query: the rows of {server} are not in date "
+        "order: result row 3 (2025-11 after 2025-12); result row 4 (2025-10 after 2025-11); result row 5 (2025-09 "
+        "after 2025-10); result row 6 (2025-08 after 2025-09); result row 7 (2025-07 after 2025-08); result row 8 "
+        "(2025-06 after 2025-07); result row 9 (2025-05 after 2025-06); result row 10 (2025-04 after 2025-05); and "
+        "231 more")
+    manifest.write_text(text.replace("harbour_monthly ORDER BY 1", "harbour_monthly WHERE false"), encoding="utf-8")
+    assert cli.main(["check", str(manifest)]) == 2
+    assert capsys.readouterr().err == (
+        f"{manifest}:{line}:5: error[data-empty]: datasets.harbour.query: {server} has a header but no rows\n"
+        "  hint: check the query's conditions and that its tables hold rows\n")
+
+
 def test_a_wrong_password_is_named_without_the_password(tmp_path: Path, pg_schema: Schema,
                                                         monkeypatch: pytest.MonkeyPatch,
                                                         capsys: pytest.CaptureFixture[str]) -> None:
