@@ -6,6 +6,12 @@ reportgen's own rules (``2011``, ``2011Q1``/``2011-Q1``, ``2011-03``, ``2011-03-
 gaps. Cells are parsed as numbers column by column, only for the columns a series uses; a
 non-numeric cell is an error naming its line, column and value. Empty cells before a column's
 first value or after its last are that series' span; empty cells inside it are an error.
+
+Parquet, Excel and SQLite files give typed cells, turned into the text a CSV would hold. A
+PostgreSQL dataset is one read-only, timed SELECT on a server whose URL an environment variable
+holds (:func:`read_server_table`); its result is kept as a canonical CSV snapshot
+(:func:`snapshot_bytes`), whose bytes are hashed and read like a file's. No message, record or
+snapshot ever holds the URL's password (:class:`ServerSource` is what is recorded).
 """
 
 from __future__ import annotations
