@@ -676,6 +676,9 @@ def server_url(dialect: str, url_env: str, where: Location,
                                     problem="it cannot be read as a URL") from None
     if url.password:
         secrets += (str(url.password),)
+    for key, given in url.query.items():  # ?password=... or ?sslpassword=...: secrets too
+        if "pass" in key.lower():
+            secrets += tuple(str(item) for item in ((given,) if isinstance(given, str) else given))
     driver = _POSTGRES_DRIVERS.get(url.drivername)
     if driver is None:
         scheme = _scrubbed(str(url.drivername), secrets)
