@@ -380,8 +380,9 @@ def verify(path: Path | str, *, recompute: bool = False, tolerance: float = VERI
             file_checks = _bundle_file_checks(dossier.bundle, notes)
             snapshots = _bundle_snapshots(document, dossier.bundle)
             if snapshots:
+                rerun = ", and the analysis re-run from them" if recompute else ""
                 notes.append(f"server queries ({', '.join(snapshots)}) were checked against their snapshots in the "
-                             "bundle (and re-run from them); no server was queried")
+                             f"bundle{rerun}; no server was queried")
         checks += _added_checks(document, manifest_path, notes, in_bundle=dossier.bundle is not None)
         checks += file_checks
         checks += _run_id_check(document, notes)

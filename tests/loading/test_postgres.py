@@ -169,8 +169,8 @@ def test_a_bundle_holds_the_snapshot_and_verifies_without_the_server(
     assert cli.main(["verify", str(tmp_path / "out" / "bundle.zip"), "--recompute"]) == 0
     shown = capsys.readouterr().out
     assert _check_row(shown, "input", "harbour") == "input harbour ok snapshots/harbour.csv"
-    assert ("note: server queries (harbour, cruise) were checked against their snapshots in the bundle (and re-run "
-            "from them); no server was queried") in shown
+    assert ("note: server queries (harbour, cruise) were checked against their snapshots in the bundle, and the "
+            "analysis re-run from them; no server was queried") in shown
     assert _check_row(shown, "recompute", "analysis").startswith("recompute analysis ok")
 
 
