@@ -174,6 +174,7 @@ def run(count: int, length: int, rounds: int, seed: int) -> int:
 
     largest_difference = 0.0
     largest_relative = 0.0
+    by_test = dict.fromkeys(TESTS, 0.0)
     mismatches = 0
     for row, reference in enumerate(references):
         for (level, test, deterministic), (statistic, lags) in reference.numbers.items():
@@ -181,6 +182,7 @@ def run(count: int, length: int, rounds: int, seed: int) -> int:
             ours = float(arrays.statistic[row])
             difference = abs(ours - statistic)
             largest_difference = max(largest_difference, difference)
+            by_test[test] = max(by_test[test], difference)
             largest_relative = max(largest_relative, difference / max(1.0, abs(statistic)))
             mismatches += int(int(arrays.lags[row]) != lags)
 
@@ -203,7 +205,8 @@ def run(count: int, length: int, rounds: int, seed: int) -> int:
           f"target {ADF_TARGET:.0f}: {'reached' if adf_ratio >= ADF_TARGET else 'not reached'})")
     print(f"engine per series by round (us): battery {', '.join(f'{value * 1e6:.0f}' for value in engine_battery)}; "
           f"ADF {', '.join(f'{value * 1e6:.0f}' for value in engine_adf)}")
-    print(f"max statistic difference: {largest_difference:.3g} (relative {largest_relative:.3g})")
+    print(f"max statistic difference: {largest_difference:.3g} (relative {largest_relative:.3g}); by test: "
+          + ", ".join(f"{test} {value:.2g}" for test, value in by_test.items()))
     print(f"lag mismatches: {mismatches}")
     return 0 if mismatches == 0 else 1
 

@@ -216,6 +216,9 @@ def run_size(series_count: int, *, seed: int = SEED, cache: Path | None = None, 
             report["pdf"], report["pdf_cpu"] = time.perf_counter() - started, time.process_time() - cpu
             report["pages"] = built.pages
             report["pdf_details"] = built.details
+            report["pdf_parts"] = built.parts
+            report["pdf_worker_cpu"] = built.worker_seconds
+            report["pdf_worker_peak_mib"] = built.worker_peak_mib
             report["pdf_bytes"] = len(built.data)
             report["pdf_warnings"] = [message for message in built.warnings if "HarfBuzz" not in message][:5]
     report["max_rss_mib"] = _max_rss_mib()
@@ -279,12 +282,16 @@ def _line(report: dict[str, Any]) -> str:
     pdf = "skipped"
     if "pdf" in report:
         folded = "with" if report["pdf_details"] else "without"
-        pdf = (f"{report['pdf']:.1f} s [{report['pdf_cpu']:.1f}], {report['pages']} pages, {folded} the folded "
+        cpu = report["pdf_cpu"] + report.get("pdf_worker_cpu", 0.0)
+        layout = (f"in {report['pdf_parts']} parts at once" if report.get("pdf_parts", 1) > 1 else "in one piece")
+        pdf = (f"{report['pdf']:.1f} s [{cpu:.1f}], {report['pages']} pages {layout}, {folded} the folded "
                f"parts, {report['pdf_bytes'] / 2**20:.1f} MiB")
     return (f"{report['series']:>6} series, {report['regressions']} regressions | statistics {statistics} | "
             f"charts {report['charts']:.1f} s [{report['charts_cpu']:.1f}] ({charts} charts, {per_chart:.1f} ms "
             f"each [{per_chart_cpu:.1f}]) | HTML {report['html']:.1f} s [{report['html_cpu']:.1f}] "
-            f"({report['html_bytes'] / 2**20:.1f} MiB) | PDF {pdf} | peak memory {report['max_rss_mib']:.0f} MiB")
+            f"({report['html_bytes'] / 2**20:.1f} MiB) | PDF {pdf} | peak memory {report['max_rss_mib']:.0f} MiB"
+            + (f", largest PDF worker {report['pdf_worker_peak_mib']:.0f} MiB" if report.get("pdf_worker_peak_mib")
+               else ""))
 
 
 def _checks(reports: Sequence[dict[str, Any]]) -> list[tuple[str, bool]]:

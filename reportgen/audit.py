@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 import re
 import tempfile
 from collections.abc import Iterable, Mapping, Sequence
@@ -29,6 +30,8 @@ from reportgen.bundle import Bundle, extract_inputs, read_bundle
 from reportgen.errors import AuditError, DamagedDossierError, Location, NoDossierError, ReportgenError
 from reportgen.manifest import load_manifest
 from reportgen.provenance import document_run_id, parse_checksums, sha256_bytes
+from reportgen.results import SERVER_QUERY_ROLE
+from reportgen.sources import DEFAULT_QUERY_TIMEOUT, ServerSnapshot, ServerSource, query_snapshot
 
 #: Default tolerance of ``verify --recompute`` (relative and absolute).
 VERIFY_TOLERANCE = 1e-9
@@ -173,9 +176,55 @@ def _read(path: Path) -> bytes | None:
         return None
 
 
-def _folder_input_checks(document: Mapping[str, Any]) -> list[Check]:
-    return [Check("input", _input_label(entry), _status(_read(Path(str(entry["path"]))), str(entry["sha256"])),
-                  str(entry["path"])) for entry in document["inputs"]]
+def _server_check(entry: Mapping[str, Any], dataset: Mapping[str, Any], notes: list[str]) -> Check:
+    """A server query input re-checked by running the recorded query again, when its environment variable is set.
+
+    The fresh result's snapshot is compared with the recorded SHA-256. Without the variable the
+    input is ``not re-checked`` (and the verification does not hold): the remedy names the variable.
+    """
+    name = str(entry["name"])
+    recorded = ServerSource.from_record(dataset.get("server") or {})
+    variable = recorded.url_env
+    if not variable or not isinstance(dataset.get("query"), str):
+        return Check("input", name, "unreadable", "results.json does not record the server and query of this input")
+    if not os.environ.get(variable, "").strip():
+        return Check("input", name, "not re-checked",
+                     f"set {variable} to re-run the query on {recorded.display()} (or verify the bundle, which holds "
+                     "its snapshot)")
+    try:
+        source, content = query_snapshot(recorded.dialect, variable, str(dataset["query"]), Location(variable),
+                                         Location(variable), timeout=int(dataset.get("query_timeout") or
+                                                                         DEFAULT_QUERY_TIMEOUT))
+    except ReportgenError as error:  # the messages hold no password (sources scrubs them)
+        return Check("input", name, "unreadable", f"{recorded.display()}: {error.message}")
+    if source.record() != recorded.record():
+        notes.append(f"{variable} names {source.display()} now; the dossier recorded {recorded.display()}")
+    return Check("input", name, _status(content, str(entry["sha256"])), f"query re-run on {source.display()}")
+
+
+def _folder_input_checks(document: Mapping[str, Any], notes: list[str]) -> list[Check]:
+    checks = []
+    datasets = document.get("datasets") or {}
+    for entry in document["inputs"]:
+        if entry["role"] == SERVER_QUERY_ROLE:
+            checks.append(_server_check(entry, datasets.get(str(entry["name"])) or {}, notes))
+        else:
+            checks.append(Check("input", _input_label(entry),
+                                _status(_read(Path(str(entry["path"]))), str(entry["sha256"])), str(entry["path"])))
+    return checks
+
+
+def _bundle_snapshots(document: Mapping[str, Any], bundle: Bundle) -> dict[str, ServerSnapshot]:
+    """The recorded results of the server queries a bundle holds, to recompute without the servers."""
+    datasets = document.get("datasets") or {}
+    snapshots: dict[str, ServerSnapshot] = {}
+    for entry in document["inputs"]:
+        name = str(entry["name"])
+        content = bundle.entries.get(bundle.input_entries.get(name, ""))
+        if entry["role"] == SERVER_QUERY_ROLE and content is not None:
+            snapshots[name] = ServerSnapshot(ServerSource.from_record((datasets.get(name) or {}).get("server") or {}),
+                                             content)
+    return snapshots
 
 
 def _bundle_input_checks(document: Mapping[str, Any], bundle: Bundle) -> list[Check]:
@@ -266,9 +315,14 @@ def _added_checks(document: Mapping[str, Any], manifest_path: Path | None, notes
         notes.append(f"the manifest {'snapshot' if in_bundle else manifest_path} no longer loads "
                      f"({message}), so datasets it may add are not listed")
         return []
-    recorded = {str(entry["name"]) for entry in document["inputs"] if entry["role"] == "data"}
-    return [Check("input", name, "added",
-                  spec.path if in_bundle else str((manifest.base_dir / spec.path).resolve()))
+    recorded = {str(entry["name"]) for entry in document["inputs"] if entry["role"] != "manifest"}
+
+    def place(spec: Any) -> str:
+        if spec.path is None:
+            return f"a query on the server named by {spec.url_env}"
+        return spec.path if in_bundle else str((manifest.base_dir / spec.path).resolve())
+
+    return [Check("input", name, "added", place(spec))
             for name, spec in manifest.spec.datasets.items() if name not in recorded]
 
 
@@ -282,10 +336,10 @@ def _run_id_check(document: Mapping[str, Any], notes: list[str]) -> list[Check]:
     return [Check("run id", recorded, status, "recomputed from the provenance that results.json records")]
 
 
-def _recompute(manifest_path: Path, out: Path) -> dict[str, Any]:
+def _recompute(manifest_path: Path, out: Path, snapshots: Mapping[str, ServerSnapshot] | None = None) -> dict[str, Any]:
     from reportgen.runner import run
 
-    outcome = run(manifest_path, out, (), command=["reportgen", "verify", "--recompute"])
+    outcome = run(manifest_path, out, (), command=["reportgen", "verify", "--recompute"], snapshots=snapshots)
     return dict(outcome.document)
 
 
@@ -314,8 +368,9 @@ def verify(path: Path | str, *, recompute: bool = False, tolerance: float = VERI
     notes: list[str] = []
     differences: list[Difference] = []
     with tempfile.TemporaryDirectory(prefix="reportgen-verify-") as scratch:
+        snapshots: dict[str, ServerSnapshot] = {}
         if dossier.bundle is None:
-            checks = _folder_input_checks(document)
+            checks = _folder_input_checks(document, notes)
             manifest_path = next((Path(str(entry["path"])) for entry in document["inputs"]
                                   if entry["role"] == "manifest"), None)
             file_checks = _folder_file_checks(dossier.path, notes)
@@ -323,6 +378,11 @@ def verify(path: Path | str, *, recompute: bool = False, tolerance: float = VERI
             checks = _bundle_input_checks(document, dossier.bundle)
             manifest_path = extract_inputs(dossier.bundle, Path(scratch) / "snapshot")
             file_checks = _bundle_file_checks(dossier.bundle, notes)
+            snapshots = _bundle_snapshots(document, dossier.bundle)
+            if snapshots:
+                rerun = ", and the analysis re-run from them" if recompute else ""
+                notes.append(f"server queries ({', '.join(snapshots)}) were checked against their snapshots in the "
+                             f"bundle{rerun}; no server was queried")
         checks += _added_checks(document, manifest_path, notes, in_bundle=dossier.bundle is not None)
         checks += file_checks
         checks += _run_id_check(document, notes)
@@ -332,7 +392,7 @@ def verify(path: Path | str, *, recompute: bool = False, tolerance: float = VERI
                 checks.append(Check("recompute", "analysis", "skipped", "the inputs do not match results.json"))
             else:
                 try:
-                    recomputed = _recompute(manifest_path, Path(scratch) / "recomputed")
+                    recomputed = _recompute(manifest_path, Path(scratch) / "recomputed", snapshots)
                 except ReportgenError as error:
                     checks.append(Check("recompute", "analysis", "failed", error.render().replace("\n", " ")))
                 else:

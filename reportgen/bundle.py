@@ -9,11 +9,14 @@
     dossier.html, dossier.pdf      the renderings that were asked for
     inputs/<folder>/<manifest>     the manifest, byte for byte
     inputs/<folder>/<data path>    every data file, at its path relative to the manifest's folder
+    snapshots/<dataset>.csv        the result of every server query (role ``server-query``), as hashed
 
 ``<folder>`` is empty when every data path stays inside the manifest's folder; when a path climbs
 out of it (``../shared/rates.csv``), the snapshot keeps as many of the manifest folder's own names
 as needed for the relative paths to resolve inside ``inputs/``. Absolute data paths cannot be
-bundled (the snapshot could not be re-run without editing the manifest).
+bundled (the snapshot could not be re-run without editing the manifest). A server query has no
+file: its snapshot (the CSV whose SHA-256 results.json records as the input's) lets ``verify``
+check it, and ``verify --recompute`` run the analysis again, without the server.
 
 The zip is deterministic: entries sorted by name, every entry dated ``created`` (the run date,
 from ``SOURCE_DATE_EPOCH`` when set, in UTC, to the even second below as the zip format
@@ -38,6 +41,7 @@ from typing import Any
 from reportgen.errors import BundleInputError, Location, NotABundleError
 from reportgen.manifest import Manifest
 from reportgen.provenance import checksums_text, environment_lock, parse_checksums, sha256_bytes
+from reportgen.results import SERVER_QUERY_ROLE
 from reportgen.sources import resolve_data_path
 
 #: The bundle's own description, and how to recognise a reportgen bundle.
@@ -46,6 +50,7 @@ CHECKSUMS_ENTRY = "checksums.sha256"
 LOCK_ENTRY = "environment.lock"
 RESULTS_ENTRY = "results.json"
 INPUTS_FOLDER = "inputs"
+SNAPSHOTS_FOLDER = "snapshots"
 BUNDLE_FORMAT = "reportgen-bundle"
 BUNDLE_FORMAT_VERSION = 1
 _ZIP_EPOCH = (1980, 1, 1, 0, 0, 0)  # the earliest date a zip entry can carry
@@ -98,8 +103,12 @@ def snapshot_entries(inputs: list[Mapping[str, Any]]) -> dict[str, str]:
     manifest = next(entry for entry in inputs if entry["role"] == "manifest")
     folder_names = PurePosixPath(Path(str(manifest["path"])).parent.as_posix()).parts[1:]
     relative: dict[str, str] = {}
+    servers: dict[str, str] = {}
     climb = 0
     for entry in inputs:
+        if entry["role"] == SERVER_QUERY_ROLE:
+            servers[str(entry["name"])] = f"{SNAPSHOTS_FOLDER}/{entry['name']}.csv"
+            continue
         text = str(entry["relative_path"]).replace("\\", "/")
         if PurePosixPath(text).is_absolute():
             raise BundleInputError(
@@ -116,7 +125,7 @@ def snapshot_entries(inputs: list[Mapping[str, Any]]) -> dict[str, str]:
                                remedy="write data paths relative to the manifest's folder, or run without --bundle")
     kept = folder_names[len(folder_names) - climb:] if climb else ()
     base = PurePosixPath(INPUTS_FOLDER, *kept)
-    return {name: posixpath.normpath(str(base / path)) for name, path in relative.items()}
+    return {**{name: posixpath.normpath(str(base / path)) for name, path in relative.items()}, **servers}
 
 
 def check_bundle_inputs(manifest: Manifest) -> None:
@@ -125,7 +134,7 @@ def check_bundle_inputs(manifest: Manifest) -> None:
                                      "relative_path": manifest.path.name}]
     inputs += [{"role": "data", "name": name, "relative_path": spec.path,
                 "path": str(resolve_data_path(manifest.base_dir, spec.path, manifest.locate("datasets", name, "path")))}
-               for name, spec in manifest.spec.datasets.items()]
+               for name, spec in manifest.spec.datasets.items() if spec.path is not None]
     try:
         snapshot_entries(inputs)
     except BundleInputError as error:
@@ -164,12 +173,13 @@ def bundle_bytes(entries: Mapping[str, bytes], created: str) -> bytes:
 
 
 def write_bundle(target: Path, document: Mapping[str, Any], dossier_files: Mapping[str, Path],
-                 manifest: Manifest) -> Path:
+                 manifest: Manifest, snapshots: Mapping[str, bytes] | None = None) -> Path:
     """Write the bundle of a run to ``target``.
 
     ``dossier_files`` are the files already written (results.json and the renderings, by name).
     Each data file is read again and must still have the SHA-256 that results.json records;
-    the manifest's bytes are those that were analysed.
+    the manifest's bytes are those that were analysed; ``snapshots`` holds the result of each
+    server query as analysed (by dataset name), stored under ``snapshots/``.
     """
     inputs = list(document["inputs"])
     where = snapshot_entries(inputs)
@@ -177,6 +187,13 @@ def write_bundle(target: Path, document: Mapping[str, Any], dossier_files: Mappi
     for entry in inputs:
         if entry["role"] == "manifest":
             content = manifest.raw
+        elif entry["role"] == SERVER_QUERY_ROLE:
+            recorded = (snapshots or {}).get(str(entry["name"]))
+            if recorded is None:
+                raise BundleInputError(problem=f"the result of the query of dataset '{entry['name']}' was not kept "
+                                               "for the bundle", location=Location(str(manifest.path)),
+                                       remedy="run again with --bundle")
+            content = recorded
         else:
             try:
                 content = Path(str(entry["path"])).read_bytes()

@@ -207,10 +207,10 @@ def _crash_report(error: BaseException) -> Path:
 
 
 #: Options of ``run`` that choose where and how the statistics are computed, never what they compute,
-#: and ``--appendix``, which only lays the dossier out differently (the dossier page records its layout).
-#: The value says whether the option takes a value.
+#: how the run reports, and ``--appendix``, which only lays the dossier out differently (the dossier
+#: page records its layout). The value says whether the option takes a value.
 EXECUTION_OPTIONS: dict[str, bool] = {"--jobs": True, "--cluster": True, "--cache": True, "--no-cache": False,
-                                      "--appendix": False}
+                                     "--color": True, "--summary": True, "--quiet": False, "--appendix": False}
 
 
 def recorded_command(arguments: Sequence[str]) -> list[str]:

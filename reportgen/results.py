@@ -34,14 +34,22 @@ CAUTIONS: tuple[str, ...] = (
 )
 
 
+#: The role of an input that is a query on a database server: its bytes are the snapshot of the result.
+SERVER_QUERY_ROLE = "server-query"
+
+
 @dataclass(frozen=True, slots=True)
 class InputRecord:
-    """One input file: what it is, where it was read, and the SHA-256 of its bytes."""
+    """One input: what it is, where it was read, and the SHA-256 of its bytes.
 
-    role: str  # "manifest", "data" or "brand" (a brand template or logo, see reportgen.branding)
+    A server query (role :data:`SERVER_QUERY_ROLE`) has no file: its path is the server's URL
+    without the password and its bytes are the snapshot of the result (``sources.snapshot_bytes``).
+    """
+
+    role: str  # "manifest", "data", "server-query" or "brand" (a brand template or logo, see reportgen.branding)
     name: str  # dataset name, "manifest", or "brand:logo" / "brand:templates/PATH"
-    path: str  # as resolved at run time (absolute)
-    relative_path: str  # relative to the manifest's folder, as written in the manifest
+    path: str  # as resolved at run time (absolute); a server's redacted URL
+    relative_path: str  # relative to the manifest's folder, as written in the manifest; a server's redacted URL
     sha256: str
     bytes: int
 
@@ -63,6 +71,10 @@ class DatasetRecord:
     notes: tuple[str, ...] = ()
     query: str | None = None  # the SELECT that read a database file, as written in the manifest
     query_sha256: str | None = None  # SHA-256 of the query's UTF-8 text
+    #: The server a query ran on, without the password: dialect, driver, host, port, database, user, url_env.
+    server: Mapping[str, Any] | None = None
+    snapshot_sha256: str | None = None  # SHA-256 of the snapshot of a server query's result
+    query_timeout: int | None = None  # seconds a server query may run (its statement timeout)
 
 
 @dataclass(frozen=True, slots=True)
@@ -104,6 +116,8 @@ class Results:
     regression_labels: Mapping[str, str]
     methods: Mapping[str, Any]
     cautions: tuple[str, ...] = CAUTIONS
+    #: The snapshot bytes of every server query's result, by dataset (for the bundle; not in results.json).
+    snapshots: Mapping[str, bytes] = dataclasses.field(default_factory=dict)
 
     def to_frame(self, kind: str = "series") -> pd.DataFrame:
         """A table for notebooks: one row per series (``kind="series"``) or per regression (``"regressions"``)."""

@@ -55,13 +55,24 @@ from reportgen.periods import index_labels, period_label
 from reportgen.progress import Progress as ProgressDisplay
 from reportgen.progress import as_progress
 from reportgen.provenance import build_time, checksums_text, document_run_id, environment, run_id, sha256_bytes
-from reportgen.results import DatasetRecord, InputRecord, Results, SeriesRecord, dump, results_to_dict
+from reportgen.results import (
+    SERVER_QUERY_ROLE,
+    DatasetRecord,
+    InputRecord,
+    Results,
+    SeriesRecord,
+    dump,
+    results_to_dict,
+)
 from reportgen.sources import (
+    DEFAULT_QUERY_TIMEOUT,
     Column,
+    ServerSnapshot,
     Table,
     canonical_table_hash,
     convert_frequency,
     parse_period,
+    read_server_table,
     read_table,
     resolve_data_path,
 )
@@ -115,10 +126,22 @@ def outside_project(manifest: Manifest, relative: str) -> str | None:
             "cannot reproduce the dossier")
 
 
-def load_tables(manifest: Manifest) -> dict[str, Table]:
-    """Read every dataset the manifest declares (in manifest order)."""
+def load_tables(manifest: Manifest, snapshots: Mapping[str, ServerSnapshot] | None = None) -> dict[str, Table]:
+    """Read every dataset the manifest declares (in manifest order).
+
+    A server dataset runs its query, unless ``snapshots`` holds its recorded result (a bundle
+    verified offline), which is then read instead.
+    """
     tables: dict[str, Table] = {}
     for name, spec in manifest.spec.datasets.items():
+        if spec.server:
+            tables[name] = read_server_table(
+                name, str(spec.format), str(spec.url_env), str(spec.query), spec.index, spec.frequency,
+                manifest.locate("datasets", name, "url_env"), manifest.locate("datasets", name, "index"),
+                manifest.locate("datasets", name, "query"), timeout=spec.query_timeout or DEFAULT_QUERY_TIMEOUT,
+                missing=spec.missing, sort=spec.sort, snapshot=(snapshots or {}).get(name))
+            continue
+        assert spec.path is not None  # the manifest's cross-checks require it of a file dataset
         path = resolve_data_path(manifest.base_dir, spec.path, manifest.locate("datasets", name, "path"))
         tables[name] = read_table(name, path, spec.path, spec.index, spec.frequency,
                                   manifest.locate("datasets", name, "path"),
@@ -402,19 +425,21 @@ def _run_stage(stage: str, kind: str, tasks: Sequence[TaskT], function: Callable
 
 
 def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = None, *,
-            executor: Executor | None = None, cache: ResultCache | None = None) -> Results:
+            executor: Executor | None = None, cache: ResultCache | None = None,
+            snapshots: Mapping[str, ServerSnapshot] | None = None) -> Results:
     """Run every stage up to the results (no files written).
 
     The orders of integration and the regressions run on ``executor`` (default: one after
     another in this process) and come from ``cache`` where it holds them; the results are the
-    same either way, to the byte.
+    same either way, to the byte. ``snapshots`` replaces server queries by their recorded
+    results (see :func:`load_tables`).
     """
     display = as_progress(progress)
     executor = executor if executor is not None else SerialExecutor()
     settings = _stats_settings(manifest)
     brand = brand_files(manifest)  # before any data is read: a missing brand folder or logo stops the run early
     display.start("reading data")
-    tables = load_tables(manifest)
+    tables = load_tables(manifest, snapshots)
     built = build_series(manifest, tables)
     refuse_short_series(manifest, built)
     frequencies = {name: item.frequency for name, item in built.items()}
@@ -454,16 +479,22 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = Non
                           bytes=len(manifest.raw))]
     datasets: dict[str, DatasetRecord] = {}
     for name, table in tables.items():
-        inputs.append(InputRecord(role="data", name=name, path=str(table.path), relative_path=table.display_path,
-                                  sha256=sha256_bytes(table.raw), bytes=len(table.raw)))
-        outside = outside_project(manifest, table.display_path)
+        # A server query's input is the snapshot of its result: its hash and size, at the server's redacted URL.
+        role = "data" if table.server is None else SERVER_QUERY_ROLE
+        inputs.append(InputRecord(role=role, name=name, path=str(table.path or table.display_path),
+                                  relative_path=table.display_path, sha256=sha256_bytes(table.raw),
+                                  bytes=len(table.raw)))
+        outside = outside_project(manifest, table.display_path) if table.server is None else None
+        spec = manifest.spec.datasets[name]
         datasets[name] = DatasetRecord(
             name=name, path=table.display_path, index_column=table.index_column, frequency=table.frequency,
             frequency_source=table.frequency_source, rows=len(table.periods), start=period_label(table.periods[0]),
             end=period_label(table.periods[-1]), columns=tuple(table.cells), table_sha256=canonical_table_hash(table),
-            notes=table.notes + ((outside,) if outside else ()), query=manifest.spec.datasets[name].query,
-            query_sha256=None if manifest.spec.datasets[name].query is None
-            else sha256_bytes(str(manifest.spec.datasets[name].query).encode()))
+            notes=table.notes + ((outside,) if outside else ()), query=spec.query,
+            query_sha256=None if spec.query is None else sha256_bytes(str(spec.query).encode()),
+            server=None if table.server is None else table.server.record(),
+            snapshot_sha256=None if table.server is None else sha256_bytes(table.raw),
+            query_timeout=None if table.server is None else spec.query_timeout or DEFAULT_QUERY_TIMEOUT)
     inputs += [InputRecord(role=BRAND_ROLE, name=item.name, path=str(item.path), relative_path=item.relative_path,
                            sha256=sha256_bytes(item.data), bytes=len(item.data)) for item in brand]
     env = environment(command, manifest.base_dir)
@@ -476,7 +507,8 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = Non
                    settings=settings_record, inputs=tuple(inputs), environment=env, datasets=datasets,
                    series=records, regressions=assessments,
                    regression_labels={name: spec.label or name for name, spec in manifest.spec.regressions.items()},
-                   methods=methods_text())
+                   methods=methods_text(),
+                   snapshots={name: table.raw for name, table in tables.items() if table.server is not None})
 
 
 def _assess_regressions(manifest: Manifest, built: Mapping[str, BuiltSeries], records: Mapping[str, SeriesRecord],
@@ -709,12 +741,14 @@ def draw_charts(document: Mapping[str, Any], executor: Executor) -> dict[str, st
 def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[str], *, manifest: Manifest,
                   template_dirs: Sequence[Path] = (), progress: Progress = None, bundle: bool = False,
                   force: bool = False, started: float | None = None, executor: Executor | None = None,
-                  layout: Layout = "full") -> RunOutcome:
+                  snapshots: Mapping[str, bytes] | None = None, layout: Layout = "full") -> RunOutcome:
     """Write results.json, the asked-for renderings, the bundle and checksums.sha256, atomically.
 
-    ``template_dirs`` (``--templates``) are searched before the manifest's brand folder, which is
-    searched before the packaged templates. ``layout`` chooses the dossier's layout (``"full"``, or
-    ``"appendix"``: compact tables only); it changes the HTML and PDF, never results.json.
+    ``snapshots`` are the snapshot bytes of the server queries' results (by dataset), which the
+    bundle stores in place of a data file. ``template_dirs`` (``--templates``) are searched before
+    the manifest's brand folder, which is searched before the packaged templates. ``layout``
+    chooses the dossier's layout (``"full"``, or ``"appendix"``: compact tables only); it changes
+    the HTML and PDF, never results.json.
 
     Everything is written into a staging folder ``.NAME.partial-PID-XXXX`` beside ``out_dir`` (PID
     is this process) and swapped into place when complete; ``checksums.sha256`` is written last
@@ -776,7 +810,8 @@ def write_outputs(document: Mapping[str, Any], out_dir: Path, formats: Sequence[
             from reportgen.bundle import write_bundle
 
             display.start("bundle")
-            write_bundle(staging / BUNDLE_FILE, document, {name: staging / name for name in written}, manifest)
+            write_bundle(staging / BUNDLE_FILE, document, {name: staging / name for name in written}, manifest,
+                         snapshots or {})
             display.finish("bundle")
             written.append(BUNDLE_FILE)
         write_checksums(staging, written)
@@ -876,7 +911,8 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
         template_dirs: Sequence[Path] = (), command: Sequence[str] | None = None,
         progress: Progress = None, bundle: bool = False, force: bool = False, jobs: int | None = 1,
         cluster: str | None = None, executor: Executor | None = None,
-        cache: ResultCache | Path | str | None = None, layout: Layout = "full") -> RunOutcome:
+        cache: ResultCache | Path | str | None = None,
+        snapshots: Mapping[str, ServerSnapshot] | None = None, layout: Layout = "full") -> RunOutcome:
     """Load, analyse and write a dossier; the one function the command line and notebooks call.
 
     ``bundle`` also writes ``bundle.zip`` (see :mod:`reportgen.bundle`); ``force`` replaces a
@@ -888,8 +924,10 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
     ``jobs`` and ``cluster`` (:func:`open_executor`; closed at the end): by default one after
     another in this process. ``cache`` (a :class:`~reportgen.cache.ResultCache` or its folder)
     reuses the verdicts and assessments of earlier runs; by default nothing is cached. Neither
-    changes a byte of the results. ``layout`` (``"full"`` or ``"appendix"``) chooses the layout of
-    the HTML and PDF dossier (see :func:`write_outputs`); results.json is the same for both.
+    changes a byte of the results. ``snapshots`` reads recorded server query results instead of
+    querying the servers (``verify --recompute`` of a bundle). ``layout`` (``"full"`` or
+    ``"appendix"``) chooses the layout of the HTML and PDF dossier (see :func:`write_outputs`);
+    results.json is the same for both.
     """
     started = time.time()
     display = as_progress(progress)
@@ -906,12 +944,12 @@ def run(manifest_path: Path | str, out_dir: Path | str, formats: Sequence[str] =
     chosen = executor if executor is not None else open_executor(manifest, jobs, cluster)
     try:
         results = analyse(manifest, command if command is not None else sys.argv, display, executor=chosen,
-                          cache=store)
+                          cache=store, snapshots=snapshots)
         document = results_to_dict(results)
         document["run_id"] = document_run_id(document)
         outcome = write_outputs(document, out, formats, manifest=manifest, template_dirs=template_dirs,
                                 progress=display, bundle=bundle, force=force, started=started, executor=chosen,
-                                layout=layout)
+                                snapshots=results.snapshots, layout=layout)
     finally:
         if executor is None:
             chosen.close()

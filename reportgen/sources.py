@@ -6,20 +6,30 @@ reportgen's own rules (``2011``, ``2011Q1``/``2011-Q1``, ``2011-03``, ``2011-03-
 gaps. Cells are parsed as numbers column by column, only for the columns a series uses; a
 non-numeric cell is an error naming its line, column and value. Empty cells before a column's
 first value or after its last are that series' span; empty cells inside it are an error.
+
+Parquet, Excel and SQLite files give typed cells, turned into the text a CSV would hold. A
+PostgreSQL dataset is one read-only, timed SELECT on a server whose URL an environment variable
+holds (:func:`read_server_table`); its result is kept as a canonical CSV snapshot
+(:func:`snapshot_bytes`), whose bytes are hashed and read like a file's. No message, record or
+snapshot ever holds the URL's password (:class:`ServerSource` is what is recorded).
 """
 
 from __future__ import annotations
 
+import contextlib
 import csv
 import datetime
 import hashlib
 import io
 import itertools
 import math
+import os
 import re
+import urllib.parse
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -47,6 +57,10 @@ from reportgen.errors import (
     MissingValuesError,
     NonNumericCellsError,
     RaggedRowsError,
+    ReportgenError,
+    ServerUnreachableError,
+    ServerUrlInvalidError,
+    ServerUrlUnsetError,
     SheetMissingError,
     SourcePackageMissingError,
     SqlQueryError,
@@ -91,9 +105,9 @@ class Table:
     """A dataset as read: its raw text cells on a period index, plus what the file was."""
 
     name: str
-    path: Path
+    path: Path | None  # None for a server query
     display_path: str
-    raw: bytes
+    raw: bytes  # the file's bytes; for a server query, the snapshot of its result (see snapshot_bytes)
     index_column: str
     frequency: str
     frequency_source: str
@@ -104,6 +118,7 @@ class Table:
     missing: str = "error"  # the dataset's missing-data policy
     inserted: tuple[str, ...] = ()  # calendar periods without a row, added as empty (policy interpolate)
     unit: str = "line"  # how messages name a row of the file: "line" (CSV) or "row" (Parquet, Excel)
+    server: ServerSource | None = None  # where a server query ran (no password); None for a file
 
     def _row(self, position: int) -> str:
         label = period_label(self.periods[position])
@@ -464,6 +479,14 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     else:
         rows, numbers = _csv_rows(raw, here, display_path, where)
         unit = "line"
+    return _table_from_rows(name, path, display_path, here, raw, rows, numbers, unit, index_column, declared, where,
+                            index_where, missing=missing, sort=sort)
+
+
+def _table_from_rows(name: str, path: Path | None, display_path: str, here: str, raw: bytes, rows: list[list[str]],
+                     numbers: list[int], unit: str, index_column: str, declared: str | None, where: Location,
+                     index_where: Location, *, missing: str, sort: bool, server: ServerSource | None = None) -> Table:
+    """A table from text rows (row 1 the header) by the date, order, gap and duplicate rules every format shares."""
     while rows and not any(cell.strip() for cell in rows[-1]):
         rows.pop()
         numbers.pop()
@@ -553,7 +576,244 @@ def read_table(name: str, path: Path, display_path: str, index_column: str, decl
     return Table(name=name, path=path, display_path=display_path, raw=raw, index_column=index_column,
                  frequency=frequency, frequency_source="declared" if declared else "inferred", periods=index,
                  lines=tuple(row_lines), cells={column: tuple(texts) for column, texts in cells.items()},
-                 notes=tuple(notes), missing=missing, inserted=tuple(inserted), unit=unit)
+                 notes=tuple(notes), missing=missing, inserted=tuple(inserted), unit=unit, server=server)
+
+
+# ---------------------------------------------------------------- database servers
+
+#: The SQLAlchemy drivers a PostgreSQL URL may name; a plain ``postgresql://`` URL uses psycopg (version 3).
+_POSTGRES_DRIVERS = {"postgresql": "psycopg", "postgres": "psycopg", "postgresql+psycopg": "psycopg",
+                     "postgresql+psycopg2": "psycopg2"}
+#: The Python module each driver needs.
+_DRIVER_MODULES = {"psycopg": "psycopg", "psycopg2": "psycopg2"}
+#: Seconds a server query may run unless the dataset says otherwise (PostgreSQL's statement_timeout).
+DEFAULT_QUERY_TIMEOUT = 60
+#: Seconds to wait for the server to answer a connection.
+CONNECT_TIMEOUT = 10
+
+
+@dataclass(frozen=True, slots=True)
+class ServerSource:
+    """A database server as results.json records it: driver, host, port, database, user, variable; never a password."""
+
+    dialect: str  # "postgresql"
+    driver: str  # "psycopg"
+    host: str  # a name or address, or the folder of a Unix socket; empty for the driver's default
+    port: int | None
+    database: str
+    user: str
+    url_env: str  # the environment variable that held the URL
+
+    def display(self) -> str:
+        """The server as messages and the dossier name it: ``postgresql+psycopg://user@host:port/database``."""
+        user = f"{self.user}@" if self.user else ""
+        port = f":{self.port}" if self.port is not None else ""
+        return f"{self.dialect}+{self.driver}://{user}{self.host}{port}/{self.database}"
+
+    def record(self) -> dict[str, Any]:
+        """The JSON form written to results.json (``datasets.NAME.server``)."""
+        return {"dialect": self.dialect, "driver": self.driver, "host": self.host, "port": self.port,
+                "database": self.database, "user": self.user, "url_env": self.url_env}
+
+    @classmethod
+    def from_record(cls, record: Mapping[str, Any]) -> ServerSource:
+        """The source a results document recorded (the inverse of :meth:`record`)."""
+        port = record.get("port")
+        return cls(dialect=str(record.get("dialect", "")), driver=str(record.get("driver", "")),
+                   host=str(record.get("host", "")), port=None if port is None else int(port),
+                   database=str(record.get("database", "")), user=str(record.get("user", "")),
+                   url_env=str(record.get("url_env", "")))
+
+
+@dataclass(frozen=True, slots=True)
+class ServerSnapshot:
+    """A server query's result as recorded (a bundle's snapshot), read instead of querying the server again."""
+
+    source: ServerSource
+    content: bytes  # the snapshot's bytes (see :func:`snapshot_bytes`)
+
+
+def snapshot_bytes(rows: Iterable[Iterable[str]]) -> bytes:
+    """The canonical bytes of a query result: CSV (RFC 4180 quoting, LF line ends, UTF-8), header first.
+
+    Cells are the text :func:`_cell_text` gives (floats by ``repr``, so exactly; dates as ISO
+    dates; NULL empty), so the same result always gives the same bytes and the same SHA-256.
+    """
+    buffer = io.StringIO()
+    writer = csv.writer(buffer, lineterminator="\n", quoting=csv.QUOTE_MINIMAL)
+    for row in rows:
+        writer.writerow(list(row))
+    return buffer.getvalue().encode("utf-8")
+
+
+def _scrubbed(text: str, secrets: Iterable[str]) -> str:
+    """``text`` with every secret (and its %-encoded forms) replaced by ``***``."""
+    for secret in sorted({item for item in secrets if item}, key=len, reverse=True):
+        for form in {secret, urllib.parse.quote(secret, safe=""), urllib.parse.quote_plus(secret)}:
+            text = text.replace(form, "***")
+    return text
+
+
+def server_url(dialect: str, url_env: str, where: Location,
+               environ: Mapping[str, str] | None = None) -> tuple[Any, ServerSource, tuple[str, ...]]:
+    """The SQLAlchemy URL held by the environment variable ``url_env``, its recorded form, and the secrets in it.
+
+    The variable's value is never put in a message: it holds the password. The secrets (the
+    whole value and the password) are returned so that the caller can scrub them from any
+    message a driver gives.
+    """
+    environment = os.environ if environ is None else environ
+    value = environment.get(url_env)
+    if value is None or not value.strip():
+        raise ServerUrlUnsetError(location=where, variable=url_env, state="not set" if value is None else "empty",
+                                  dialect="PostgreSQL")
+    sqlalchemy = _needs("sqlalchemy", "sql", f"the {dialect} server", where)
+    secrets: tuple[str, ...] = (value.strip(),)
+    try:
+        url = sqlalchemy.engine.make_url(value.strip())  # type: ignore[attr-defined]
+    except Exception:  # any failure: its message would repeat the value, password included
+        raise ServerUrlInvalidError(location=where, variable=url_env, dialect="PostgreSQL",
+                                    problem="it cannot be read as a URL") from None
+    if url.password:
+        secrets += (str(url.password),)
+    for key, given in url.query.items():  # ?password=... or ?sslpassword=...: secrets too
+        if "pass" in key.lower():
+            secrets += tuple(str(item) for item in ((given,) if isinstance(given, str) else given))
+    driver = _POSTGRES_DRIVERS.get(url.drivername)
+    if driver is None:
+        scheme = _scrubbed(str(url.drivername), secrets)
+        raise ServerUrlInvalidError(location=where, variable=url_env, dialect="PostgreSQL",
+                                    problem=f"it names the driver '{scheme}'; reportgen reads PostgreSQL servers "
+                                            "(postgresql:// or postgresql+psycopg://)")
+    if not url.database:
+        raise ServerUrlInvalidError(location=where, variable=url_env, dialect="PostgreSQL",
+                                    problem="it names no database (the part after the last '/')")
+    url = url.set(drivername=f"postgresql+{driver}")
+    socket_host = url.query.get("host")
+    host = url.host or (socket_host if isinstance(socket_host, str) else "")
+    source = ServerSource(dialect="postgresql", driver=driver, host=_scrubbed(host, secrets), port=url.port,
+                          database=_scrubbed(str(url.database), secrets),
+                          user=_scrubbed(str(url.username or ""), secrets), url_env=url_env)
+    return url, source, secrets
+
+
+def _connection_remedy(reason: str, variable: str) -> str:
+    """What to do about a failed connection, from the driver's words."""
+    lowered = reason.lower()
+    if "password" in lowered or "authentication" in lowered:
+        return f"check the user name and password in {variable}, and that the server lets this user log in"
+    if "does not exist" in lowered:
+        return f"check the database and user names in {variable}"
+    if "refused" in lowered or "timeout" in lowered or "timed out" in lowered or "could not translate" in lowered:
+        return f"check that the server is running and that the host and port in {variable} are right"
+    return f"check the URL in {variable} and that the server accepts connections from this machine"
+
+
+def _server_rows(url: Any, source: ServerSource, secrets: tuple[str, ...], query: str, timeout: int,
+                 where: Location, query_where: Location) -> list[list[str]]:
+    """The rows one read-only SELECT returns from a server; row 1 is the header (the result's column names).
+
+    The query runs in a transaction begun ``READ ONLY`` (PostgreSQL then refuses any write,
+    also one hidden in a ``WITH`` clause or a function) with ``statement_timeout`` set for that
+    transaction only, and the transaction is rolled back. Every message is scrubbed of the URL
+    and the password.
+    """
+    if not _SELECT.match(query) or query.strip().rstrip(";").count(";"):
+        raise SqlQueryError(location=query_where, problem="the query must be one SELECT (or WITH ... SELECT) "
+                                                          "statement", remedy="remove other statements")
+    server = source.display()
+    sqlalchemy = _needs("sqlalchemy", "sql", server, where)
+    driver = _needs(_DRIVER_MODULES[source.driver], "sql", server, where)
+    from sqlalchemy.pool import NullPool
+
+    engine = sqlalchemy.create_engine(url, poolclass=NullPool, hide_parameters=True,  # type: ignore[attr-defined]
+                                      connect_args={"connect_timeout": CONNECT_TIMEOUT,
+                                                    "application_name": "reportgen"})
+    errors = (sqlalchemy.exc.SQLAlchemyError, driver.Error)  # type: ignore[attr-defined]
+
+    def reason_of(error: BaseException) -> str:
+        original = getattr(error, "orig", None) or error
+        lines = [line.strip() for line in str(original).splitlines() if line.strip()]
+        return _scrubbed(lines[0] if lines else type(original).__name__, secrets)
+
+    try:
+        try:
+            connection = engine.connect()
+        except errors as error:
+            reason = reason_of(error)
+            raise ServerUnreachableError(location=where, server=server, variable=source.url_env, reason=reason,
+                                         remedy=_connection_remedy(reason, source.url_env)) from None
+        with connection:
+            transaction = connection.begin()
+            try:
+                # The driver's own cursor: the query text goes to the server as written, with no placeholders
+                # read into it (a '%' or ':name' in the SQL stays SQL).
+                cursor = connection.connection.cursor()
+                cursor.execute("SET TRANSACTION READ ONLY")
+                cursor.execute("SELECT set_config('statement_timeout', %s, true)", (f"{timeout * 1000}",))
+                cursor.execute(query)
+                if cursor.description is None:
+                    raise SqlQueryError(location=query_where, problem=f"the query on {server} returned no rows "
+                                                                      "(it is not a SELECT)",
+                                        remedy="give one SELECT statement")
+                header = [str(column[0]) for column in cursor.description]
+                records = [[_cell_text(value) for value in record] for record in cursor.fetchall()]
+            except errors as error:
+                reason = reason_of(error)
+                timed_out = "statement timeout" in reason
+                raise SqlQueryError(
+                    location=query_where, problem=f"the query on {server} failed: {reason}",
+                    remedy=(f"the query ran longer than {timeout} s: make it faster, or raise the dataset's "
+                            "query_timeout") if timed_out else
+                    "check the table and column names; the query runs in a read-only transaction, so it cannot "
+                    "write") from None
+            finally:
+                with contextlib.suppress(*errors):  # a broken connection has nothing left to roll back
+                    transaction.rollback()
+    finally:
+        engine.dispose()
+    return [header, *records]
+
+
+def query_snapshot(dialect: str, url_env: str, query: str, where: Location, query_where: Location, *,
+                   timeout: int = DEFAULT_QUERY_TIMEOUT,
+                   environ: Mapping[str, str] | None = None) -> tuple[ServerSource, bytes]:
+    """Run a server query read-only and return where it ran (no password) and the snapshot bytes of its result."""
+    url, source, secrets = server_url(dialect, url_env, where, environ)
+    return source, snapshot_bytes(_server_rows(url, source, secrets, query, timeout, where, query_where))
+
+
+def read_server_table(name: str, dialect: str, url_env: str, query: str, index_column: str, declared: str | None,
+                      where: Location, index_where: Location, query_where: Location, *,
+                      timeout: int = DEFAULT_QUERY_TIMEOUT, missing: str = "error", sort: bool = False,
+                      snapshot: ServerSnapshot | None = None, environ: Mapping[str, str] | None = None) -> Table:
+    """Read a dataset from a database server: run its query, keep the result's snapshot as the table's bytes.
+
+    ``where`` locates the dataset's ``url_env``, ``query_where`` its query. The result is
+    serialised by :func:`snapshot_bytes` and the table is read from those bytes, so the
+    snapshot's SHA-256 is that of exactly what was analysed and a snapshot read again (a
+    bundle's, given as ``snapshot``, with no server at all) gives the same table. ``environ``
+    replaces ``os.environ`` (for tests).
+    """
+    if snapshot is not None:
+        source, raw = snapshot.source, snapshot.content
+    else:
+        source, raw = query_snapshot(dialect, url_env, query, where, query_where, timeout=timeout, environ=environ)
+    display = source.display()
+    try:
+        rows, _ = _csv_rows(raw, display, display, query_where)
+        return _table_from_rows(name, None, display, display, raw, rows, list(range(1, len(rows) + 1)),
+                                "result row", index_column, declared, query_where, index_where, missing=missing,
+                                sort=sort, server=source)
+    except DataEmptyError as error:
+        raise DataEmptyError(error.message, location=query_where,
+                             hint="check the query's conditions and that its tables hold rows") from None
+    except ReportgenError as error:
+        # A problem at a row of the result is located at the manifest's query (a server has no file lines);
+        # the message names the result row.
+        if error.location is None or str(error.location.path) != display:
+            raise
+        raise type(error)(error.message, location=query_where, hint=error.hint) from None
 
 
 def convert_frequency(column: Column, source: str, target: str, how: str, where: Location) -> tuple[Column, str]:

@@ -26,8 +26,9 @@ MissingPolicy = Literal["error", "drop-leading-trailing", "interpolate"]
 #: What to do with a series or regression too short to test: refuse it (the default), or keep it in
 #: the dossier with its order undetermined and its regressions inconclusive.
 TooShortPolicy = Literal["error", "report"]
-#: File formats a dataset may have (implied by the file's suffix unless declared).
-DataFormat = Literal["csv", "parquet", "excel", "sqlite"]
+#: Formats a dataset may have: files (implied by the file's suffix unless declared) and, declared only,
+#: ``postgresql``, a query on a database server whose URL an environment variable holds.
+DataFormat = Literal["csv", "parquet", "excel", "sqlite", "postgresql"]
 #: How a dataset's periods are combined into the periods of a coarser frequency.
 Aggregation = Literal["mean", "sum", "last", "first"]
 #: Significance levels reportgen accepts (the levels the critical-value tables carry).

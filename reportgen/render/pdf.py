@@ -129,6 +129,10 @@ class BuiltPdf:
     warnings: tuple[str, ...] = ()
     details: bool = True
     parts: int = 1
+    #: CPU seconds spent in worker processes (the parts laid out at once), beside this process's own.
+    worker_seconds: float = 0.0
+    #: The largest peak resident memory of those workers, in MiB.
+    worker_peak_mib: float = 0.0
 
 
 class _Collect(logging.Handler):
@@ -314,9 +318,9 @@ def build_pdf(html: str, *, base_dir: Path, created: str, attachments: Sequence[
         joined = build_in_parts(paper_html(html, details=details), base_url=str(Path(base_dir).resolve()) + os.sep,
                                 roots=fetcher.roots, created=created, attachments=payloads, parallel=parallel)
         if joined is not None:
-            data, pages, warnings, count = joined
-            return BuiltPdf(data=data, pages=pages, title=_title(html), warnings=warnings, details=details,
-                            parts=count)
+            return BuiltPdf(data=joined.data, pages=joined.pages, title=_title(html), warnings=joined.warnings,
+                            details=details, parts=joined.parts, worker_seconds=joined.worker_seconds,
+                            worker_peak_mib=joined.worker_peak_mib)
     if not details:
         files.append(Attachment(string=html, name=ATTACHED_HTML, description=f"{ATTACHED_HTML}: the dossier with "
                                 "every record of every series, attached by reportgen", created=moment,

@@ -1,0 +1,1 @@
+"""Tests of the loading stage: manifests, data files, server queries, transforms."""
