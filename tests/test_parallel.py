@@ -14,8 +14,11 @@ import os
 import time
 from collections.abc import Callable, Iterator
 from pathlib import Path
+from typing import Any
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from reportgen import cli, executor
 from reportgen.executor import (
@@ -253,3 +256,32 @@ def test_results_json_is_written_piece_by_piece_with_the_same_bytes(small_projec
     written = io.StringIO()
     dump({"series": {f"s{number}": list(range(50)) for number in range(2000)}}, written)  # many pieces
     assert written.getvalue() == dumps({"series": {f"s{number}": list(range(50)) for number in range(2000)}})
+
+
+_JSON_SCALARS = (st.none() | st.booleans() | st.integers(-10**20, 10**20)
+                 | st.floats(allow_nan=False, allow_infinity=False) | st.text(max_size=8))
+_JSON_VALUES = st.recursive(_JSON_SCALARS, lambda inner: st.lists(inner, max_size=4)
+                            | st.dictionaries(st.text(max_size=6), inner, max_size=4), max_leaves=30)
+
+
+@settings(max_examples=300, derandomize=True, database=None, deadline=None)
+@given(st.dictionaries(st.sampled_from(["series", "regressions", "run_id", "x"]), _JSON_VALUES, max_size=4))
+def test_the_streamed_encoder_writes_what_the_json_module_writes(document: dict[str, Any]) -> None:
+    """``dump``'s own encoder against ``json.dumps(indent=2)`` (the reference): the same text for any document."""
+    import io
+
+    from reportgen.results import dump, dumps
+
+    stream = io.StringIO()
+    dump(document, stream)
+    assert stream.getvalue() == dumps(document)
+
+
+@pytest.mark.parametrize("bad", [float("nan"), float("inf"), [1.0, float("-inf")], {"k": [float("nan"), None]}])
+def test_the_streamed_encoder_refuses_what_the_json_module_refuses(bad: Any) -> None:
+    import io
+
+    from reportgen.results import dump
+
+    with pytest.raises(ValueError, match="not JSON compliant"):
+        dump({"series": {"a": bad}}, io.StringIO())
