@@ -13,7 +13,8 @@ chart texts are shaped in one piece rather than letter by letter, and a dossier 
 :data:`PDF_DETAIL_LIMIT` series leaves the folded records of its series (every test, grid, trail,
 notes, fan chart) to the HTML page attached to the PDF. The stylesheet does its part: fixed table
 layouts, page numbers in the index without leaders, long summary tables split (see style.css and
-:data:`reportgen.render.html.SUMMARY_ROWS`).
+:data:`reportgen.render.html.SUMMARY_ROWS`). A dossier of more than :data:`PDF_DETAIL_LIMIT` series
+is also laid out in parts at once, on every core, and joined (:mod:`reportgen.render.paged`).
 """
 
 from __future__ import annotations
