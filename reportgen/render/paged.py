@@ -41,7 +41,7 @@ import traceback
 import warnings
 import zlib
 from collections.abc import Callable, Iterator, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -123,7 +123,7 @@ class _Numbers:
 
     first: int = 1
     total: int = 0
-    counted: int = field(default=0)
+    counted: int = 0
 
 
 def _outline(html: str, start: int, end: int) -> list[Element] | None:
@@ -302,7 +302,6 @@ def _page_numbers(sync: Callable[[int], tuple[int, int]]) -> Iterator[None]:
     synced = False
 
     def counting(*arguments: Any, **keywords: Any) -> Iterator[Any]:
-        nonlocal synced
         numbers.counted = 0
         for page in make_all_pages(*arguments, **keywords):
             numbers.counted += 1

@@ -15,6 +15,7 @@ import dataclasses
 import json
 import math
 from collections.abc import Mapping, Sequence
+from pathlib import Path
 from typing import Any
 
 import pytest
@@ -611,3 +612,12 @@ def html_text(document_master: dict[str, Any], plots: dict[str, str]) -> str:
     from reportgen.render.html import render_html
 
     return render_html(document_master, plots)
+
+
+@pytest.fixture(scope="module")
+def workspace(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """A project folder with a manifest and a results.json to attach to PDFs (one per test module)."""
+    folder = tmp_path_factory.mktemp("project")
+    (folder / "manifest.yaml").write_text("reportgen: 1\nproject: {title: Harbour}\n", encoding="utf-8")
+    (folder / "results.json").write_text('{"schema_version": "1.0"}\n', encoding="utf-8")
+    return folder

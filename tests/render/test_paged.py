@@ -14,14 +14,6 @@ from reportgen.render.pdf import BuiltPdf, build_pdf, paper_html
 from .conftest import CREATED
 
 
-@pytest.fixture(scope="module")
-def workspace(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    folder = tmp_path_factory.mktemp("paged")
-    (folder / "manifest.yaml").write_text("reportgen: 1\nproject: {title: Harbour}\n", encoding="utf-8")
-    (folder / "results.json").write_text('{"schema_version": "1.0"}\n', encoding="utf-8")
-    return folder
-
-
 def _build(html: str, workspace: Path, **options: bool) -> BuiltPdf:
     return build_pdf(html, base_dir=workspace, created=CREATED, details=False,
                      attachments=[workspace / "manifest.yaml", workspace / "results.json"], **options)

@@ -40,14 +40,6 @@ def inflated(data: bytes) -> bytes:
 
 
 @pytest.fixture(scope="module")
-def workspace(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    folder = tmp_path_factory.mktemp("project")
-    (folder / "manifest.yaml").write_text("reportgen: 1\nproject: {title: Harbour}\n", encoding="utf-8")
-    (folder / "results.json").write_text('{"schema_version": "1.0"}\n', encoding="utf-8")
-    return folder
-
-
-@pytest.fixture(scope="module")
 def built(html_text: str, workspace: Path) -> BuiltPdf:
     return build_pdf(html_text, base_dir=workspace, created=CREATED,
                      attachments=[workspace / "manifest.yaml", workspace / "results.json"])
