@@ -634,22 +634,8 @@ def _refit(levels: np.ndarray, shift: _Shift, lags: np.ndarray | int, trend_coun
         raw, sums, weighted = products.diagonal(), products.sums, products.weighted
         order = [*range(1, lag + 1), 0, lag + 1]  # lagged differences, the level, the response
         factor = _factor(gram, raw, order)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            values = factor.lower[:, -1, -2] / np.sqrt(factor.lower[:, -1, -1] ** 2 / freedom)
-        # What each column keeps after the ones before it, on the scale of the columns as given.
-        kept = np.diagonal(factor.lower, axis1=1, axis2=2) ** 2
         original = _original_lengths(raw, sums, weighted, part, lag, length - 1)[:, order]
-        trusted = (
-            factor.trusted
-            & np.isfinite(values)
-            & (freedom > 0)
-            & np.all(kept[:, :-1] >= _KEPT_DIAGONAL**2 * original[:, :-1], axis=1)
-            & (kept[:, -1] >= _KEPT_FIT_SHARE * original[:, -1])
-        )
-        statistics[members] = np.where(trusted, values, math.nan)
-        for position in np.flatnonzero(~trusted):
-            row = int(members[position])
-            statistics[row], status[row] = _exact_statistic(levels[row], lag, trend_count)
+        _keep_trusted(factor, original, freedom, members, levels, lag, trend_count, statistics, status)
     return statistics, status
 
 
@@ -720,22 +706,34 @@ def _refit_from_search(levels: np.ndarray, shift: _Shift, products: _Products, m
         gram = _partialled(raw, sums, weighted, nobs, trend_count)
         diagonal = np.diagonal(raw, axis1=1, axis2=2)
         factor = _factor(gram, diagonal)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            values = factor.lower[:, -1, -2] / np.sqrt(factor.lower[:, -1, -1] ** 2 / freedom)
-        kept = np.diagonal(factor.lower, axis1=1, axis2=2) ** 2
         original = _original_lengths(diagonal, sums, weighted, part, lag, end, level=lag)
-        trusted = (
-            factor.trusted
-            & np.isfinite(values)
-            & (freedom > 0)
-            & np.all(kept[:, :-1] >= _KEPT_DIAGONAL**2 * original[:, :-1], axis=1)
-            & (kept[:, -1] >= _KEPT_FIT_SHARE * original[:, -1])
-        )
-        statistics[members] = np.where(trusted, values, math.nan)
-        for position in np.flatnonzero(~trusted):
-            row = int(members[position])
-            statistics[row], status[row] = _exact_statistic(levels[row], lag, trend_count)
+        _keep_trusted(factor, original, freedom, members, levels, lag, trend_count, statistics, status)
     return statistics, status
+
+
+def _keep_trusted(factor: _Factor, original: np.ndarray, freedom: int | np.ndarray, members: np.ndarray,
+                  levels: np.ndarray, lag: int, trend_count: int, statistics: np.ndarray, status: np.ndarray) -> None:
+    """Write the t-statistics of ``members`` read off ``factor`` where the factorisation can be trusted,
+    and refit the others exactly (see :func:`_exact_statistic`).
+
+    Trusted: finite, with degrees of freedom left, and every column (and the fit) keeping a fair
+    share of its length after the columns before it, on the scale of the columns as given
+    (``original``), so that cancellation has not eaten the digits.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        values = factor.lower[:, -1, -2] / np.sqrt(factor.lower[:, -1, -1] ** 2 / freedom)
+    kept = np.diagonal(factor.lower, axis1=1, axis2=2) ** 2
+    trusted = (
+        factor.trusted
+        & np.isfinite(values)
+        & (freedom > 0)
+        & np.all(kept[:, :-1] >= _KEPT_DIAGONAL**2 * original[:, :-1], axis=1)
+        & (kept[:, -1] >= _KEPT_FIT_SHARE * original[:, -1])
+    )
+    statistics[members] = np.where(trusted, values, math.nan)
+    for position in np.flatnonzero(~trusted):
+        row = int(members[position])
+        statistics[row], status[row] = _exact_statistic(levels[row], lag, trend_count)
 
 
 # --- p-values and critical values -------------------------------------------------------------------
