@@ -1,4 +1,5 @@
-"""The result cache of incremental runs: one entry per series verdict and per regression assessment.
+"""The result cache of incremental runs: one entry per series verdict and per regression assessment,
+and one text entry per series' and regression's part of results.json.
 
 An entry is found by its key, the SHA-256 of everything its result depends on (see
 :func:`content_key`): the inputs of the computation (a series' name, values, dates and settings;
@@ -15,6 +16,12 @@ the entry rewritten. Every entry is written to a temporary file in its folder an
 place, so runs sharing a cache never see half an entry. Floats are written with ``repr``, which
 reads back to the same bits, so a run from the cache writes the same results.json bytes as a run
 without it.
+
+Text entries (:meth:`ResultCache.load_text`) keep what is costly to rebuild but cheap to keep as
+text: the part of results.json a series or regression writes, keyed by everything that part is
+made of (see :func:`reportgen.results.results_to_dict`). A run that finds the part of an unchanged
+series neither rebuilds its verdict nor encodes it again; the entry's header line names its kind
+and key, and an entry whose header does not match, or whose text is not a JSON object, is ignored.
 
 Location: ``--cache DIR``, else ``$REPORTGEN_CACHE``, else ``$XDG_CACHE_HOME/reportgen``, else
 ``~/.cache/reportgen`` (:func:`default_cache_dir`). The folder only grows; deleting it (or any
@@ -284,6 +291,8 @@ class CacheStats:
     misses: int = 0
     rejected: int = 0  # entries found but not used: unreadable, another key or kind, values that do not fit
     written: int = 0
+    text_hits: int = 0  # text entries (see ResultCache.load_text) found and used
+    text_misses: int = 0
     unwritable: str | None = None  # why entries could not be written, if they could not
 
 
@@ -329,7 +338,39 @@ class ResultCache:
                               ensure_ascii=False, allow_nan=True, separators=(",", ":"))
         except (TypeError, ValueError):
             return
-        path = self.path(kind, key)
+        if self._write(self.path(kind, key), key, text):
+            self.stats.written += 1
+
+    def text_path(self, kind: str, key: str) -> Path:
+        """Where the text entry of ``kind`` and ``key`` lives."""
+        return self.folder / f"v{CACHE_FORMAT}" / kind / key[:2] / f"{key}.txt"
+
+    def load_text(self, kind: str, key: str) -> str | None:
+        """The stored text of ``kind`` and ``key``, or None (missing, or its header names another entry).
+
+        A text entry is one header line (the format, kind and key, as JSON) and the text; it holds
+        what is costly to rebuild but cheap to keep, such as a result's encoded results.json part.
+        """
+        try:
+            stored = self.text_path(kind, key).read_text(encoding="utf-8")
+        except (OSError, UnicodeError):
+            self.stats.text_misses += 1
+            return None
+        header, newline, text = stored.partition("\n")
+        if not newline or header != _text_header(kind, key):
+            self.stats.rejected += 1
+            self.stats.text_misses += 1
+            return None
+        self.stats.text_hits += 1
+        return text
+
+    def store_text(self, kind: str, key: str, text: str) -> None:
+        """Write a text entry (atomically); a folder that cannot be written leaves the cache as it was."""
+        if self.stats.unwritable is None:
+            self._write(self.text_path(kind, key), key, _text_header(kind, key) + "\n" + text)
+
+    def _write(self, path: Path, key: str, text: str) -> bool:
+        """Write ``text`` to ``path`` through a temporary file renamed into place; False if it cannot be."""
         try:
             path.parent.mkdir(parents=True, exist_ok=True, mode=0o700)
             handle, name = tempfile.mkstemp(prefix=f".{key[:16]}.", suffix=".tmp", dir=path.parent)
@@ -342,5 +383,9 @@ class ResultCache:
                 raise
         except OSError as error:
             self.stats.unwritable = f"{error.strerror or error} ({error.filename or self.folder})"
-            return
-        self.stats.written += 1
+            return False
+        return True
+
+
+def _text_header(kind: str, key: str) -> str:
+    return json.dumps({"format": CACHE_FORMAT, "kind": kind, "key": key}, separators=(",", ":"))

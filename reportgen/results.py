@@ -8,15 +8,17 @@ follow one formatting policy (12 significant digits), so the same inputs give th
 from __future__ import annotations
 
 import dataclasses
+import functools
 import html
 import json
 import math
-from collections.abc import Mapping
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from typing import Any, TextIO
 
 import pandas as pd
 
+from reportgen.cache import ResultCache
 from reportgen.stats.types import OrderVerdict, RegressionAssessment
 
 SCHEMA_VERSION = "1.0"
@@ -118,6 +120,8 @@ class Results:
     cautions: tuple[str, ...] = CAUTIONS
     #: The snapshot bytes of every server query's result, by dataset (for the bundle; not in results.json).
     snapshots: Mapping[str, bytes] = dataclasses.field(default_factory=dict)
+    #: Where a run with a cache keeps each series' and regression's part of results.json (not in results.json).
+    parts: PartStore | None = dataclasses.field(default=None, compare=False, repr=False)
 
     def to_frame(self, kind: str = "series") -> pd.DataFrame:
         """A table for notebooks: one row per series (``kind="series"``) or per regression (``"regressions"``)."""
@@ -201,42 +205,161 @@ def summary_counts(regressions: Mapping[str, RegressionAssessment]) -> dict[str,
     return counts
 
 
+class DocumentPart(dict):  # type: ignore[type-arg]
+    """A series' or regression's part of a results document that also holds its JSON text.
+
+    ``text`` is the part as :func:`dump` writes it inside ``"series"`` or ``"regressions"``, so a
+    run that takes it from the cache writes it as it is instead of encoding it again. Any change
+    made through the mapping drops the text (the part is then encoded as usual); the values inside
+    are the document's and are not changed in place by anything that reads it.
+    """
+
+    __slots__ = ("text",)
+
+    def __init__(self, content: Mapping[str, Any], text: str | None) -> None:
+        super().__init__(content)
+        self.text = text
+
+    def __setitem__(self, key: str, value: Any) -> None:
+        self.text = None
+        super().__setitem__(key, value)
+
+    def __delitem__(self, key: str) -> None:
+        self.text = None
+        super().__delitem__(key)
+
+    def __ior__(self, other: Any) -> DocumentPart:
+        self.text = None
+        return super().__ior__(other)  # type: ignore[return-value]
+
+    def clear(self) -> None:
+        self.text = None
+        super().clear()
+
+    def pop(self, *arguments: Any) -> Any:
+        self.text = None
+        return super().pop(*arguments)
+
+    def popitem(self) -> tuple[str, Any]:
+        self.text = None
+        return super().popitem()
+
+    def setdefault(self, key: str, default: Any = None) -> Any:
+        self.text = None
+        return super().setdefault(key, default)
+
+    def update(self, *arguments: Any, **named: Any) -> None:
+        self.text = None
+        super().update(*arguments, **named)
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (DocumentPart, (dict(self), self.text))
+
+
+#: The indentation of a series' or regression's part in results.json (inside "series" or "regressions").
+BODY_INDENT = "    "
+
+
+def _series_body(records: Mapping[str, SeriesRecord], name: str) -> dict[str, Any]:
+    record = records[name]  # looked up only here: the runner may build a record on first use
+    verdict = _plain(record.verdict)
+    return {
+        "label": record.label,
+        "dataset": record.dataset,
+        "column": record.column,
+        "transforms": list(record.transforms),
+        "lineage": record.lineage,
+        "frequency": record.frequency,
+        "start": record.start,
+        "end": record.end,
+        "nobs": len(record.values),
+        "missing": {"policy": record.missing_policy, "dropped": list(record.dropped),
+                    "interpolated": list(record.interpolated)},
+        "order": verdict["order"],
+        "reason": verdict["reason"],
+        "deterministic": verdict["deterministic"],
+        "deterministic_reasons": verdict["deterministic_reasons"],
+        "trail": verdict["trail"],
+        "fragile": verdict["fragile"],
+        "fragile_reason": verdict["fragile_reason"],
+        "tests": verdict["tests"],
+        "grid": verdict["grid"],
+        "fan_chart": verdict["fan_chart"],
+        "notes": list(record.notes) + verdict["notes"],
+        "data": {"dates": list(record.dates), "values": _plain(record.values)},
+    }
+
+
+def _regression_body(assessment: RegressionAssessment, label: str) -> dict[str, Any]:
+    body = _plain(assessment)
+    body.pop("name")
+    body["label"] = label
+    return body
+
+
+PART_KINDS = {"series": "series-part", "regressions": "regression-part"}
+
+
+@dataclass(frozen=True, slots=True)
+class PartStore:
+    """The parts of a results document that a run's cache holds or should hold (see :func:`results_to_dict`).
+
+    ``keys`` names each part's text entry (``"series"`` or ``"regressions"``, then the name): the
+    SHA-256 of everything the part is made of, so an entry found is the part as it would be
+    built. ``found`` holds the parts the runner has already read.
+    """
+
+    cache: ResultCache
+    keys: Mapping[str, Mapping[str, str]]
+    found: Mapping[str, Mapping[str, DocumentPart]] = dataclasses.field(default_factory=dict)
+
+
+def load_part(cache: ResultCache, section: str, key: str) -> DocumentPart | None:
+    """The part of ``section`` (``"series"`` or ``"regressions"``) stored under ``key``, or None."""
+    text = cache.load_text(PART_KINDS[section], key)
+    if text is None:
+        return None
+    try:
+        content = json.loads(text)
+    except ValueError:
+        content = None
+    if type(content) is not dict:
+        cache.stats.rejected += 1
+        return None
+    return DocumentPart(content, text)
+
+
+def _part(parts: PartStore | None, section: str, name: str,
+          build: Callable[[], dict[str, Any]]) -> dict[str, Any]:
+    """A part of the document: read already, else from its text entry, else built (and its text stored)."""
+    key = None if parts is None else parts.keys.get(section, {}).get(name)
+    if parts is None or key is None:
+        return build()
+    found = parts.found.get(section, {}).get(name)
+    if found is None:
+        found = load_part(parts.cache, section, key)
+    if found is not None:
+        return found
+    body = build()
+    text = _encoded(body, BODY_INDENT)
+    parts.cache.store_text(PART_KINDS[section], key, text)
+    return DocumentPart(body, text)
+
+
 def results_to_dict(results: Results) -> dict[str, Any]:
-    """The JSON form of a run (see DESIGN.md, "Contracts"), keys in a fixed order."""
-    series: dict[str, Any] = {}
-    for name, record in results.series.items():
-        verdict = _plain(record.verdict)
-        series[name] = {
-            "label": record.label,
-            "dataset": record.dataset,
-            "column": record.column,
-            "transforms": list(record.transforms),
-            "lineage": record.lineage,
-            "frequency": record.frequency,
-            "start": record.start,
-            "end": record.end,
-            "nobs": len(record.values),
-            "missing": {"policy": record.missing_policy, "dropped": list(record.dropped),
-                        "interpolated": list(record.interpolated)},
-            "order": verdict["order"],
-            "reason": verdict["reason"],
-            "deterministic": verdict["deterministic"],
-            "deterministic_reasons": verdict["deterministic_reasons"],
-            "trail": verdict["trail"],
-            "fragile": verdict["fragile"],
-            "fragile_reason": verdict["fragile_reason"],
-            "tests": verdict["tests"],
-            "grid": verdict["grid"],
-            "fan_chart": verdict["fan_chart"],
-            "notes": list(record.notes) + verdict["notes"],
-            "data": {"dates": list(record.dates), "values": _plain(record.values)},
-        }
-    regressions: dict[str, Any] = {}
-    for name, assessment in results.regressions.items():
-        body = _plain(assessment)
-        body.pop("name")
-        body["label"] = results.regression_labels.get(name, name)
-        regressions[name] = body
+    """The JSON form of a run (see DESIGN.md, "Contracts"), keys in a fixed order.
+
+    Where the results carry :attr:`~Results.parts` (a run with a cache), each series' and
+    regression's part is taken from the cache, else built and stored there: an incremental run
+    then neither rebuilds nor re-encodes the parts that did not change. The document is the same.
+    """
+    parts = results.parts
+    series = {name: _part(parts, "series", name, functools.partial(_series_body, results.series, name))
+              for name in results.series}
+    regressions = {name: _part(parts, "regressions", name,
+                               functools.partial(_regression_body, assessment,
+                                                 results.regression_labels.get(name, name)))
+                   for name, assessment in results.regressions.items()}
     return {
         "schema_version": SCHEMA_VERSION,
         "tool_version": results.tool_version,
@@ -277,7 +400,9 @@ def dump(document: Mapping[str, Any], stream: TextIO) -> None:
         if type(value) is dict and value and key in ("series", "regressions"):
             stream.write("{")
             for number, (name, body) in enumerate(value.items()):
-                stream.write(("," if number else "") + "\n    " + _key(name) + ": " + _encoded(body, "    "))
+                text = body.text if type(body) is DocumentPart and body.text is not None else None
+                stream.write(("," if number else "") + "\n" + BODY_INDENT + _key(name) + ": "
+                             + (text if text is not None else _encoded(body, BODY_INDENT)))
             stream.write("\n  }")
         else:
             stream.write(_encoded(value, "  "))

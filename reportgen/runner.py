@@ -12,6 +12,7 @@ from __future__ import annotations
 import ctypes
 import dataclasses
 import errno
+import functools
 import hashlib
 import json
 import os
@@ -58,10 +59,13 @@ from reportgen.provenance import build_time, checksums_text, document_run_id, en
 from reportgen.results import (
     SERVER_QUERY_ROLE,
     DatasetRecord,
+    DocumentPart,
     InputRecord,
+    PartStore,
     Results,
     SeriesRecord,
     dump,
+    load_part,
     results_to_dict,
 )
 from reportgen.sources import (
@@ -328,6 +332,88 @@ class RegressionOutcome:
     insufficient: str | None = None  # the message of the insufficient-data error
 
 
+@dataclass(frozen=True, slots=True)
+class OrderSummary:
+    """What the regressions need of a series' verdict: its order, and whether (and why) it is fragile."""
+
+    order: int | None
+    fragile: bool
+    fragile_reason: str | None
+
+    @classmethod
+    def of_verdict(cls, verdict: OrderVerdict) -> OrderSummary:
+        return cls(verdict.order, verdict.fragile, verdict.fragile_reason)
+
+    @classmethod
+    def of_part(cls, part: Mapping[str, Any]) -> OrderSummary | None:
+        """The summary a series' results.json part records, or None if the part does not hold one."""
+        order, fragile, reason = part.get("order"), part.get("fragile"), part.get("fragile_reason")
+        if not ((order is None or type(order) is int) and type(fragile) is bool
+                and (reason is None or type(reason) is str)):
+            return None
+        return cls(order, fragile, reason)
+
+
+def _record_basics(manifest: Manifest, name: str, item: BuiltSeries) -> dict[str, Any]:
+    """A series record's fields that are neither its periods, its values nor its verdict."""
+    spec = manifest.spec.series[name]
+    return {"label": spec.label or item.lineage, "dataset": spec.dataset, "column": spec.column,
+            "transforms": tuple(step.name if step.parameter is None else f"{step.name}:{step.parameter}"
+                                for step in manifest.transforms[name]),
+            "lineage": item.lineage, "frequency": item.frequency, "missing_policy": item.column.policy,
+            "dropped": item.column.dropped, "interpolated": item.column.interpolated}
+
+
+def series_record(name: str, item: BuiltSeries, basics: Mapping[str, Any], outcome: OrderOutcome) -> SeriesRecord:
+    """A series as analysed: ``basics`` (:func:`_record_basics`), its periods and values, its verdict."""
+    values = item.values
+    return SeriesRecord(name=name, start=period_label(values.index[0]), end=period_label(values.index[-1]),
+                        dates=index_labels(values.index), values=tuple(float(v) for v in values.to_numpy()),
+                        verdict=outcome.verdict, notes=item.notes + outcome.warnings, **basics)
+
+
+def _deferred_record(name: str, item: BuiltSeries, basics: Mapping[str, Any], task: OrderTask, key: str,
+                     cache: ResultCache | None) -> SeriesRecord:
+    """The record of a series whose results.json part came from the cache, built when first asked for:
+    its verdict from the cache, or computed again here (same inputs, same verdict) if the entry is gone."""
+    outcome = None if cache is None else cache.load("order", key, OrderOutcome)
+    if outcome is None:
+        computed = order_of_integration(task)
+        if isinstance(computed, Failure):  # it succeeded on these inputs before: only a changed library fails here
+            raise computed.error()
+        outcome = computed
+    return series_record(name, item, basics, outcome)
+
+
+class SeriesRecords(Mapping[str, SeriesRecord]):
+    """The series records of a run, in manifest order; a record given as a function is built on first use.
+
+    A run from the cache takes the results.json part of an unchanged series as stored and needs
+    its record (its verdict rebuilt from the cache) only when someone asks: a notebook, a test.
+    """
+
+    def __init__(self, records: Mapping[str, SeriesRecord | Callable[[], SeriesRecord]]) -> None:
+        self._records = dict(records)
+
+    def __getitem__(self, name: str) -> SeriesRecord:
+        record = self._records[name]
+        if not isinstance(record, SeriesRecord):
+            record = self._records[name] = record()
+        return record
+
+    def __iter__(self) -> Iterator[str]:
+        return iter(self._records)
+
+    def __len__(self) -> int:
+        return len(self._records)
+
+    def __repr__(self) -> str:
+        return f"SeriesRecords({list(self._records)})"
+
+    def __reduce__(self) -> tuple[Any, ...]:
+        return (dict, (dict(self.items()),))
+
+
 def order_of_integration(task: OrderTask) -> OrderOutcome | Failure:
     """Check and test one series (the function worker processes run for the first stage)."""
     values = pd.Series(task.values, index=task.index, name=task.name)
@@ -388,15 +474,18 @@ OutcomeT = TypeVar("OutcomeT")
 
 
 def _run_stage(stage: str, kind: str, tasks: Sequence[TaskT], function: Callable[[TaskT], OutcomeT | Failure],
-               key: Callable[[TaskT], str], outcome_type: type[OutcomeT], names: Sequence[str], executor: Executor,
-               cache: ResultCache | None, progress: ProgressDisplay) -> Iterator[OutcomeT | Failure]:
-    """The outcome of every task in task order: from the cache where it holds one, else computed.
+               keys: Sequence[str], outcome_type: type[OutcomeT], names: Sequence[str], executor: Executor,
+               cache: ResultCache | None, progress: ProgressDisplay, reused: int = 0) -> Iterator[OutcomeT | Failure]:
+    """The outcome of every task in task order: from the cache where it holds one (under the task's
+    key in ``keys``), else computed.
 
     Computed outcomes are stored as they complete; failures are never stored. Progress counts
-    the cached outcomes at once and the computed ones as they complete.
+    ``reused`` items of the stage that need no task (their results are known) and the cached
+    outcomes at once, and the computed ones as they complete.
     """
-    progress.start(stage, len(tasks))
-    keys = [key(task) for task in tasks] if cache is not None else []
+    progress.start(stage, len(tasks) + reused)
+    if reused:
+        progress.advance(stage, reused)
     found: dict[int, OutcomeT] = {}
     if cache is not None:
         for index, task_key in enumerate(keys):
@@ -447,32 +536,42 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = Non
 
     order_tasks = [OrderTask(name, item.values.to_numpy(dtype=float), item.values.index, settings,
                              manifest.spec.series[name].deterministic) for name, item in built.items()]
+    basics = {name: _record_basics(manifest, name, item) for name, item in built.items()}
+    keys = {task.name: order_key(task) for task in order_tasks} if cache is not None else {}
+    part_keys: dict[str, dict[str, str]] = {"series": {}, "regressions": {}}
+    found: dict[str, DocumentPart] = {}
+    summaries: dict[str, OrderSummary] = {}
+    if cache is not None:  # a series whose results.json part is stored needs neither its verdict nor its record now
+        for name, item in built.items():
+            part_keys["series"][name] = content_key("series-part", {"verdict": keys[name], "notes": item.notes,
+                                                                    "record": basics[name]})
+            part = load_part(cache, "series", part_keys["series"][name])
+            summary = None if part is None else OrderSummary.of_part(part)
+            if summary is not None:
+                found[name], summaries[name] = part, summary
+    needed = [task for task in order_tasks if task.name not in found]
     verdicts: dict[str, OrderOutcome] = {}
-    outcomes = _run_stage("order of integration", "order", order_tasks, order_of_integration, order_key, OrderOutcome,
-                          list(built), executor, cache, display)
-    for task, outcome in zip(order_tasks, outcomes, strict=True):
+    outcomes = _run_stage("order of integration", "order", needed, order_of_integration,
+                          [keys[task.name] for task in needed] if cache is not None else [], OrderOutcome,
+                          [task.name for task in needed], executor, cache, display, reused=len(found))
+    for task, outcome in zip(needed, outcomes, strict=True):
         if isinstance(outcome, Failure):
             outcomes.close()
             located = issubclass(outcome.kind, (ConstantSeriesError, SeriesScaleError))
             raise outcome.error(manifest.locate("series", task.name) if located else None) from None
         verdicts[task.name] = outcome
+        summaries[task.name] = OrderSummary.of_verdict(outcome.verdict)
 
-    records: dict[str, SeriesRecord] = {}
-    for name, item in built.items():
-        values, spec, outcome = item.values, manifest.spec.series[name], verdicts[name]
-        records[name] = SeriesRecord(
-            name=name, label=spec.label or item.lineage, dataset=spec.dataset, column=spec.column,
-            transforms=tuple(step.name if step.parameter is None else f"{step.name}:{step.parameter}"
-                             for step in manifest.transforms[name]),
-            lineage=item.lineage, frequency=frequencies[name], start=period_label(values.index[0]),
-            end=period_label(values.index[-1]), dates=index_labels(values.index),
-            values=tuple(float(v) for v in values.to_numpy()), verdict=outcome.verdict,
-            notes=item.notes + outcome.warnings, missing_policy=item.column.policy, dropped=item.column.dropped,
-            interpolated=item.column.interpolated)
+    tasks_by_name = {task.name: task for task in order_tasks}
+    records = SeriesRecords({name: (series_record(name, item, basics[name], verdicts[name]) if name in verdicts
+                                    else functools.partial(_deferred_record, name, item, basics[name],
+                                                           tasks_by_name[name], keys[name], cache))
+                             for name, item in built.items()})
 
-    assessments = _assess_regressions(manifest, built, records, frequencies, settings, executor, cache, display)
+    assessments = _assess_regressions(manifest, built, summaries, frequencies, settings, executor, cache, display,
+                                      part_keys["regressions"])
     if cache is not None:
-        _report_cache(cache, display)
+        _report_cache(cache, len(found), display)
 
     inputs = [InputRecord(role="manifest", name="manifest", path=str(manifest.path),
                           relative_path=manifest.path.name, sha256=sha256_bytes(manifest.raw),
@@ -508,12 +607,14 @@ def analyse(manifest: Manifest, command: Sequence[str], progress: Progress = Non
                    series=records, regressions=assessments,
                    regression_labels={name: spec.label or name for name, spec in manifest.spec.regressions.items()},
                    methods=methods_text(),
-                   snapshots={name: table.raw for name, table in tables.items() if table.server is not None})
+                   snapshots={name: table.raw for name, table in tables.items() if table.server is not None},
+                   parts=None if cache is None else PartStore(cache, part_keys, {"series": found}))
 
 
-def _assess_regressions(manifest: Manifest, built: Mapping[str, BuiltSeries], records: Mapping[str, SeriesRecord],
+def _assess_regressions(manifest: Manifest, built: Mapping[str, BuiltSeries], summaries: Mapping[str, OrderSummary],
                         frequencies: Mapping[str, str], settings: StatsSettings, executor: Executor,
-                        cache: ResultCache | None, progress: ProgressDisplay) -> dict[str, RegressionAssessment]:
+                        cache: ResultCache | None, progress: ProgressDisplay,
+                        part_keys: dict[str, str]) -> dict[str, RegressionAssessment]:
     """Every regression's assessment, in manifest order; errors raised as a serial run raises them.
 
     A regression whose sample cannot be formed (mixed frequencies, a bad sample bound, no common
@@ -524,7 +625,7 @@ def _assess_regressions(manifest: Manifest, built: Mapping[str, BuiltSeries], re
     planned: list[tuple[str, RegressionTask | RegressionAssessment]] = []
     stop: ReportgenError | None = None
     for name, formula in manifest.formulas.items():
-        orders = {variable: records[variable].verdict.order for variable in formula.variables}
+        orders = {variable: summaries[variable].order for variable in formula.variables}
         policy = _regression_policy(manifest, name)
         try:
             data = regression_data(manifest, name, series_values, frequencies)
@@ -541,13 +642,19 @@ def _assess_regressions(manifest: Manifest, built: Mapping[str, BuiltSeries], re
             planned.append((name, _infeasible(name, formula.text, formula.dependent, formula.regressors, orders,
                                               reason)))
             continue
-        fragile = {variable: records[variable].verdict.fragile_reason or "fragile order"
-                   for variable in formula.variables if records[variable].verdict.fragile}
+        fragile = {variable: summaries[variable].fragile_reason or "fragile order"
+                   for variable in formula.variables if summaries[variable].fragile}
         planned.append((name, RegressionTask(name, formula.text, formula.dependent, tuple(formula.regressors), data,
                                              orders, fragile, settings)))
 
     tasks = [plan for _, plan in planned if isinstance(plan, RegressionTask)]
-    outcomes = _run_stage("regressions", "regression", tasks, regression_assessment, regression_key, RegressionOutcome,
+    keys = [regression_key(task) for task in tasks] if cache is not None else []
+    # A regression's results.json part: its assessment, its name and the label it is shown by (no keys, no cache).
+    for task, key in zip(tasks, keys, strict=False):
+        part_keys[task.name] = content_key("regression-part", {"assessment": key, "name": task.name,
+                                                               "label": manifest.spec.regressions[task.name].label
+                                                               or task.name})
+    outcomes = _run_stage("regressions", "regression", tasks, regression_assessment, keys, RegressionOutcome,
                           [task.name for task in tasks], executor, cache, progress)
     assessments: dict[str, RegressionAssessment] = {}
     for name, plan in planned:
@@ -580,10 +687,12 @@ def _regression_policy(manifest: Manifest, name: str) -> str:
     return manifest.spec.regressions[name].too_short or manifest.spec.settings.too_short
 
 
-def _report_cache(cache: ResultCache, progress: ProgressDisplay) -> None:
+def _report_cache(cache: ResultCache, parts: int, progress: ProgressDisplay) -> None:
+    """Say how many results came from the cache: outcomes read, and series whose whole part was."""
     stats = cache.stats
     rejected = f"; {stats.rejected} stored entries not trusted, computed again" if stats.rejected else ""
-    progress.note(f"cache {cache.folder}: {stats.hits} of {stats.hits + stats.misses} results reused{rejected}")
+    progress.note(f"cache {cache.folder}: {stats.hits + parts} of {stats.hits + stats.misses + parts} results "
+                  f"reused{rejected}")
     if stats.unwritable is not None:
         progress.note(f"cache {cache.folder}: results could not be stored ({stats.unwritable}); "
                       "the next run computes them again")
@@ -596,23 +705,46 @@ _INPUTS_KEY = '\n  "inputs": '
 def recorded_manifest(results_file: Path) -> Path | None:
     """The manifest path (resolved at its run) that a results.json records, or None if unreadable.
 
-    In a complete file as reportgen writes it only the ``inputs`` list is parsed (a results.json of
-    many series runs to tens of megabytes); any other file is parsed whole.
+    In a complete file as reportgen writes it only the start, up to the end of the ``inputs``
+    list, is read and parsed (a results.json of many series runs to tens of megabytes); any other
+    file is parsed whole.
     """
     try:
-        text = results_file.read_text(encoding="utf-8")
-        inputs: Any = None
-        start = text.find(_INPUTS_KEY)
-        if text.startswith("{\n") and text.endswith("\n}\n") and start > 0:
-            try:
-                inputs, _ = json.JSONDecoder().raw_decode(text, start + len(_INPUTS_KEY))
-            except ValueError:
-                inputs = None
+        inputs = _recorded_inputs(results_file)
         if not isinstance(inputs, list):
-            inputs = json.loads(text)["inputs"]
+            inputs = json.loads(results_file.read_text(encoding="utf-8"))["inputs"]
         return Path(next(entry["path"] for entry in inputs if entry["role"] == "manifest"))
     except (OSError, ValueError, KeyError, TypeError, StopIteration):
         return None
+
+
+def _recorded_inputs(results_file: Path, chunk: int = 1 << 16) -> Any:
+    """The ``inputs`` list of a complete results.json as :func:`reportgen.results.dump` writes it, read
+    from its start only; None if the file is not one (not complete, or the list is not where it should be)."""
+    import codecs
+
+    with results_file.open("rb") as stream:
+        size = os.fstat(stream.fileno()).st_size
+        stream.seek(max(0, size - 3))
+        if size < 5 or stream.read() != b"\n}\n":
+            return None
+        stream.seek(0)
+        decoder = codecs.getincrementaldecoder("utf-8")()
+        text = ""
+        while True:
+            block = stream.read(chunk)
+            text += decoder.decode(block, final=not block)
+            if not text.startswith("{\n"[:len(text)]):
+                return None
+            start = text.find(_INPUTS_KEY)
+            if start > 0:
+                try:
+                    return json.JSONDecoder().raw_decode(text, start + len(_INPUTS_KEY))[0]
+                except ValueError:
+                    pass  # the list goes on beyond what was read
+            if not block:
+                return None
+            chunk *= 2
 
 
 def _check_out_dir(out_dir: Path, manifest_path: Path | None = None, *, force: bool = False) -> None:

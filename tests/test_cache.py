@@ -114,11 +114,17 @@ def test_settings_and_overrides_are_part_of_the_key(small_project: Callable[...,
     assert calls == {"order": ["walk_a", "walk_b", "noise"], "regression": ["a_on_b", "noise_on_a"]}
 
 
+def _texts(folder: Path, kind: str) -> list[Path]:
+    return sorted((folder / f"v{CACHE_FORMAT}" / kind).rglob("*.txt"))
+
+
 def test_corrupt_and_foreign_entries_are_ignored_and_replaced(small_project: Callable[..., Path], tmp_path: Path,
                                                               private_result_cache: Path, fixed_date: None,
                                                               calls: dict[str, list[str]]) -> None:
     manifest = small_project()
     expected = _run(manifest, tmp_path / "out")
+    for part in _texts(private_result_cache, "series-part"):  # so that every verdict is read from its entry
+        part.unlink()
     orders = _entries(private_result_cache / f"v{CACHE_FORMAT}" / "order")
     regressions = _entries(private_result_cache / f"v{CACHE_FORMAT}" / "regression")
     orders[0].write_bytes(orders[0].read_bytes()[:200])  # truncated
@@ -135,6 +141,73 @@ def test_corrupt_and_foreign_entries_are_ignored_and_replaced(small_project: Cal
     calls["regression"].clear()
     assert _run(manifest, tmp_path / "out") == expected  # the entries were rewritten
     assert calls == {"order": [], "regression": []}
+
+
+def test_corrupt_and_foreign_parts_are_ignored_and_replaced(small_project: Callable[..., Path], tmp_path: Path,
+                                                            private_result_cache: Path, fixed_date: None,
+                                                            calls: dict[str, list[str]]) -> None:
+    """A results.json part that cannot be trusted is built again from its (cached) verdict or assessment."""
+    manifest = small_project()
+    expected = _run(manifest, tmp_path / "out")
+    parts = _texts(private_result_cache, "series-part")
+    regression_parts = _texts(private_result_cache, "regression-part")
+    assert len(parts) == 3
+    assert len(regression_parts) == 2
+    parts[0].write_bytes(parts[0].read_bytes()[:300])  # truncated: not JSON
+    parts[1].write_bytes(parts[2].read_bytes())  # another series' part under this one's key: its header says so
+    header = regression_parts[0].read_text().partition("\n")[0]
+    regression_parts[0].write_text(header + "\n[1, 2]")  # JSON, but not a part
+    calls["order"].clear()
+    calls["regression"].clear()
+    cache = ResultCache(private_result_cache)
+    assert _run(manifest, tmp_path / "out") == expected
+    assert calls == {"order": [], "regression": []}
+    for path in (parts[0], parts[1], regression_parts[0]):
+        kind = path.parent.parent.name
+        assert cache.load_text(kind, path.stem) is not None  # rewritten
+    assert cache.stats.rejected == 0
+
+
+def test_a_run_from_parts_gives_the_records_of_a_computed_run(small_project: Callable[..., Path],
+                                                              private_result_cache: Path, fixed_date: None,
+                                                              calls: dict[str, list[str]]) -> None:
+    """The series records of a run that took every part from the cache are built when asked for, equal to a
+    computed run's: from the cached verdicts, or computed again where those entries are gone."""
+    manifest = load_manifest(small_project())
+    computed = analyse(manifest, ["reportgen"])
+    results_to_dict(analyse(manifest, ["reportgen"], cache=ResultCache(private_result_cache)))  # parts stored
+    calls["order"].clear()
+    from_parts = analyse(manifest, ["reportgen"], cache=ResultCache(private_result_cache))
+    assert calls["order"] == []
+    assert from_parts.parts is not None
+    assert set(from_parts.parts.found["series"]) == set(computed.series)
+    assert list(from_parts.series) == list(computed.series)
+    assert dict(from_parts.series.items()) == dict(computed.series.items())
+    assert calls["order"] == []  # every verdict from its entry
+    again = analyse(manifest, ["reportgen"], cache=ResultCache(private_result_cache))
+    for entry in _entries(private_result_cache / f"v{CACHE_FORMAT}" / "order"):
+        entry.unlink()
+    assert again.series["walk_b"] == computed.series["walk_b"]
+    assert calls["order"] == ["walk_b"]  # computed again, the one asked for
+    assert again.to_frame().equals(computed.to_frame())
+    assert results_to_dict(again) == results_to_dict(computed)
+
+
+def test_a_changed_label_or_note_changes_the_part_but_not_the_verdict(small_project: Callable[..., Path],
+                                                                       small_manifest: str, tmp_path: Path,
+                                                                       fixed_date: None,
+                                                                       calls: dict[str, list[str]]) -> None:
+    _run(small_project(), tmp_path / "out")
+    calls["order"].clear()
+    calls["regression"].clear()
+    labelled = small_manifest.replace("noise: {dataset: sim, column: noise}",
+                                      "noise: {dataset: sim, column: noise, label: Pure noise}")
+    written = json.loads(_run(small_project(labelled), tmp_path / "out"))
+    assert written["series"]["noise"]["label"] == "Pure noise"
+    assert calls == {"order": [], "regression": []}
+    assert _run(small_project(labelled), tmp_path / "out", "--no-cache") == json.dumps(written, indent=2,
+                                                                                      ensure_ascii=False).encode() \
+        + b"\n"
 
 
 def test_no_cache_reads_and_writes_nothing(small_project: Callable[..., Path], tmp_path: Path,

@@ -285,3 +285,56 @@ def test_the_streamed_encoder_refuses_what_the_json_module_refuses(bad: Any) -> 
 
     with pytest.raises(ValueError, match="not JSON compliant"):
         dump({"series": {"a": bad}}, io.StringIO())
+
+
+def test_a_part_with_its_text_is_written_as_it_is_until_changed() -> None:
+    """An DocumentPart's text is written in place of its values; any change through the mapping drops the
+    text, so the values are written (common practice: a cached rendering is never trusted past a change)."""
+    import io
+    import pickle
+
+    from reportgen.results import BODY_INDENT, DocumentPart, _encoded, dump, dumps
+
+    content = {"order": 1, "values": [1.5, 2.0], "label": "x"}
+    part = DocumentPart(content, _encoded(content, BODY_INDENT))
+    document = {"series": {"a": part}}
+    stream = io.StringIO()
+    dump(document, stream)
+    assert stream.getvalue() == dumps(document)
+    part.text = part.text.replace("1.5", "9.5")  # a stale text is written as it is: it is what was kept
+    stream = io.StringIO()
+    dump(document, stream)
+    assert '"values": [\n        9.5' in stream.getvalue()
+    for change in (lambda body: body.__setitem__("order", 2), lambda body: body.pop("label"),
+                   lambda body: body.update(extra=True), lambda body: body.setdefault("new", 0),
+                   lambda body: body.__delitem__("order"), lambda body: body.clear(), lambda body: body.popitem()):
+        body = DocumentPart(content, "stale text")
+        change(body)
+        assert body.text is None
+        stream = io.StringIO()
+        dump({"series": {"a": body}}, stream)
+        assert stream.getvalue() == dumps({"series": {"a": dict(body)}})
+    copied = pickle.loads(pickle.dumps(part))
+    assert type(copied) is DocumentPart
+    assert copied == part
+    assert copied.text == part.text
+
+
+@settings(max_examples=200, derandomize=True, database=None, deadline=None)
+@given(st.dictionaries(st.text(max_size=6), _JSON_VALUES, max_size=5))
+def test_a_stored_part_reads_back_as_the_json_module_reads_it(content: dict[str, Any]) -> None:
+    """A part stored and read back is the part encoded: its text as written, its values as json.loads reads it."""
+    import tempfile
+
+    from reportgen.cache import ResultCache
+    from reportgen.results import BODY_INDENT, _encoded, load_part
+
+    text = _encoded(content, BODY_INDENT)
+    with tempfile.TemporaryDirectory() as folder:
+        cache = ResultCache(folder)
+        cache.store_text("series-part", "ab" * 32, text)
+        part = load_part(cache, "series", "ab" * 32)
+    reference = json.loads(text)
+    assert part is not None
+    assert part.text == text
+    assert json.dumps(part, sort_keys=True) == json.dumps(reference, sort_keys=True)  # also int vs float, -0.0

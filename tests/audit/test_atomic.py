@@ -148,6 +148,28 @@ def test_another_manifests_dossier_needs_force(small_project: Callable[..., Path
     assert reportgen.runner.recorded_manifest(out / "results.json") == second.resolve()
 
 
+@pytest.mark.parametrize("chunk", [1, 7, 64, 1 << 16])
+def test_the_recorded_manifest_is_read_from_the_start_of_results_json(tmp_path: Path, chunk: int) -> None:
+    """Only the start of a complete results.json is read, in growing blocks that may end inside a character."""
+    from reportgen.results import dumps
+
+    inputs = [{"role": "data", "name": f"d{number}", "path": f"/data/é{number}.csv"} for number in range(300)]
+    inputs.append({"role": "manifest", "name": "manifest", "path": "/projects/Ölmühle/manifest.yaml"})
+    document = {"schema_version": "1.0", "project": {"title": "Hafenstadt · Ölmühle ✓"}, "inputs": inputs,
+                "series": {"s": {"values": [1.5] * 10_000}}}
+    results_file = tmp_path / "results.json"
+    results_file.write_text(dumps(document), encoding="utf-8")
+    assert reportgen.runner._recorded_inputs(results_file, chunk) == document["inputs"]
+    assert reportgen.runner.recorded_manifest(results_file) == Path("/projects/Ölmühle/manifest.yaml")
+    results_file.write_text(dumps(document)[:-2], encoding="utf-8")  # not complete: the whole file is tried
+    assert reportgen.runner._recorded_inputs(results_file, chunk) is None
+    assert reportgen.runner.recorded_manifest(results_file) is None
+    results_file.write_text(dumps({"inputs": "a text", "x": 1}), encoding="utf-8")
+    assert reportgen.runner.recorded_manifest(results_file) is None
+    results_file.write_bytes(dumps(document).encode()[:100] + b"\xff" + dumps(document).encode()[100:])
+    assert reportgen.runner.recorded_manifest(results_file) is None
+
+
 def test_checksums_file_is_in_sha256sum_format(small_project: Callable[..., Path], tmp_path: Path) -> None:
     out = tmp_path / "out"
     run(small_project(), out, ("html",), command=["reportgen"])
