@@ -377,12 +377,12 @@ def lay_out(part: Part, number: int, settings: Settings, sync: Callable[[int], t
     """
     from weasyprint import HTML, Attachment
 
-    from reportgen.render.pdf import LocalFileFetcher, _fixed_clock, _svg_text_in_one_piece, pdf_timestamp
+    from reportgen.render.pdf import LocalFileFetcher, _fixed_clock, chart_drawing, pdf_timestamp
 
     moment = pdf_timestamp(settings.created)
     stamp = moment.strftime("%Y-%m-%dT%H:%M:%SZ")
     fetcher = LocalFileFetcher(list(settings.roots))
-    with _fixed_clock(moment) as log, _svg_text_in_one_piece(), _page_numbers(sync):
+    with _fixed_clock(moment) as log, chart_drawing(), _page_numbers(sync):
         document = HTML(string=part.html, base_url=settings.base_url, url_fetcher=fetcher,
                         media_type="print").render()
         if fetcher.refused:

@@ -7,6 +7,8 @@ from pathlib import Path
 
 import pypdf
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from reportgen.render.paged import INDEX_CLASS, index_with_pages, split_parts
 from reportgen.render.pdf import BuiltPdf, build_pdf, paper_html
@@ -130,3 +132,82 @@ def test_index_entries_get_their_page_or_a_hidden_stand_in() -> None:
     assert '<a href="#a">A<span class="page-ref">7</span></a>' in numbered
     assert '<a href="#b">B<span class="page-ref" style="visibility: hidden">000</span></a>' in numbered
     assert numbered.endswith('<a href="#a">outside</a>')
+
+
+class _Stream:
+    """A drawing stream that records what it is told."""
+
+    def __init__(self) -> None:
+        self.operations: list[tuple[object, ...]] = []
+
+    def move_to(self, x: float, y: float) -> None:
+        self.operations.append(("move", x, y))
+
+    def line_to(self, x: float, y: float) -> None:
+        self.operations.append(("line", x, y))
+
+    def close(self) -> None:
+        self.operations.append(("close",))
+
+
+def _drawn(function: object, d: str) -> tuple[list[tuple[object, ...]], list[object]]:
+    from collections import deque
+
+    import weasyprint.svg
+
+    class Node(dict):
+        vertices: deque
+
+    class Drawing:
+        inner_width = inner_height = 100.0
+        point = weasyprint.svg.SVG.point
+
+    node, drawing = Node(d=d), Drawing()
+    node.vertices = deque()
+    drawing.stream = _Stream()  # type: ignore[attr-defined]
+    function(drawing, node, 10.0)  # type: ignore[operator]
+    return drawing.stream.operations, list(node.vertices)  # type: ignore[attr-defined]
+
+
+_NUMBER = st.builds(lambda whole, fraction, sign: f"{sign}{whole}{fraction}", st.integers(0, 10**6),
+                    st.sampled_from(["", ".5", ".25", ".001", ".999999"]), st.sampled_from(["", "-"]))
+_PAIRS = st.lists(st.tuples(_NUMBER, _NUMBER), min_size=1, max_size=4).map(
+    lambda pairs: " ".join(f"{x} {y}" for x, y in pairs))
+_STRAIGHT = st.lists(st.tuples(st.sampled_from(["M", "L", ""]), _PAIRS), min_size=1, max_size=8).map(
+    lambda commands: " ".join(["M", commands[0][1]] + [part for letter, pairs in commands[1:]
+                                                        for part in ((letter, pairs) if letter else (pairs,))]))
+
+
+@settings(max_examples=300, derandomize=True, database=None, deadline=None)
+@given(_STRAIGHT | st.sampled_from(["M 1 2 Z", "M 1,2 L 3,4", "M 1e5 2", "L 1 2", "M 1 2 L", "", "m 1 2 l 3 4",
+                                     "M 1 2 H 5 V 6", "M 1 2 C 3 4 5 6 7 8"]))
+def test_charts_straight_paths_are_drawn_as_weasyprint_draws_them(d: str) -> None:
+    """The one-pass reader of the charts' M/L paths against WeasyPrint's own path function (the reference):
+    the same moves and lines and the same marker vertices, for any such path; anything else goes to WeasyPrint."""
+    import importlib
+
+    import weasyprint.svg
+
+    from reportgen.render.pdf import _straight_path, _svg_paths_read_at_once
+
+    original = importlib.import_module("weasyprint.svg.path").path
+    with _svg_paths_read_at_once():
+        fast = weasyprint.svg.TAGS["path"]
+    assert fast is not original  # the reader was installed (and is removed again on leaving)
+    assert weasyprint.svg.TAGS["path"] is original
+    try:
+        expected = _drawn(original, d)
+    except Exception:  # a path WeasyPrint cannot draw is never one the reader takes
+        assert _straight_path(d) is None
+        return
+    assert _drawn(fast, d) == expected
+
+
+def test_the_fast_path_reader_leaves_the_pdf_bytes_as_they_are(html_text: str, workspace: Path, whole: BuiltPdf,
+                                                               monkeypatch: pytest.MonkeyPatch) -> None:
+    import contextlib
+
+    import reportgen.render.pdf
+
+    monkeypatch.setattr(reportgen.render.pdf, "_svg_paths_read_at_once", contextlib.nullcontext)
+    assert _build(html_text, workspace, parts=False).data == whole.data
